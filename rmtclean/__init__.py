@@ -1,0 +1,17 @@
+"""rmtclean: clean large sample covariance matrices with random-matrix theory."""
+
+from rmtclean.estimators import SpectralCovariance
+from rmtclean.rules import CleanedEigenvalues
+from rmtclean.spectrum import CleanedSpectrum, SampleSpectrum, sample_spectrum
+
+__version__ = "0.1.0"
+
+__all__ = sorted(
+    [
+        "CleanedEigenvalues",
+        "CleanedSpectrum",
+        "SampleSpectrum",
+        "SpectralCovariance",
+        "sample_spectrum",
+    ]
+)

@@ -1,0 +1,11 @@
+"""scikit-learn estimators: one thin class per rule."""
+
+from rmtclean.estimators._base import SpectralCovariance
+from rmtclean.estimators._linear import LinearShrink
+
+__all__ = sorted(
+    [
+        "LinearShrink",
+        "SpectralCovariance",
+    ]
+)

@@ -1,0 +1,19 @@
+"""Warning and error classes of rmtclean."""
+
+__all__ = ["InvalidParameterError", "RankDeficientWarning", "WeakEstimateWarning"]
+
+
+class WeakEstimateWarning(UserWarning):
+    """The estimate is legal but statistically weak (e.g. very few samples)."""
+
+
+class RankDeficientWarning(UserWarning):
+    """The data are rank deficient beyond what the sample size explains."""
+
+
+class InvalidParameterError(ValueError, TypeError):
+    """A parameter has the wrong type or value.
+
+    Subclasses both :class:`ValueError` and :class:`TypeError`, as
+    scikit-learn's parameter errors do, so either ``except`` clause catches it.
+    """

@@ -1,0 +1,27 @@
+"""Rules: pure functions from a sample spectrum to cleaned eigenvalues."""
+
+from rmtclean.rules._linear import (
+    INTENSITY_METHODS,
+    SHRINKAGE_TARGETS,
+    linear_shrink,
+    linear_shrink_covariance,
+    shrinkage_intensity,
+    shrinkage_target,
+)
+from rmtclean.rules._split import NULL_SPACE_METHODS, split_covariance, split_shrink
+from rmtclean.rules._types import CleanedEigenvalues
+
+__all__ = sorted(
+    [
+        "CleanedEigenvalues",
+        "INTENSITY_METHODS",
+        "SHRINKAGE_TARGETS",
+        "linear_shrink",
+        "linear_shrink_covariance",
+        "shrinkage_intensity",
+        "shrinkage_target",
+        "NULL_SPACE_METHODS",
+        "split_covariance",
+        "split_shrink",
+    ]
+)

@@ -1,0 +1,246 @@
+"""The sample spectrum: eigen-decomposition of a sample covariance."""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+import scipy.linalg
+
+__all__ = ["SampleSpectrum", "sample_spectrum"]
+
+#: Largest number of features for which ``route="auto"`` forms the N x N matrix.
+DENSE_LIMIT = 5000
+
+
+@dataclass(frozen=True, eq=False)
+class SampleSpectrum:
+    """Eigenvalues and eigenvectors of a sample covariance (or correlation).
+
+    The sample covariance is ``S = sum_t w_t (x_t - m)(x_t - m)' / dof`` with
+    the frequency weights ``w`` (all one by default), the weighted mean ``m``
+    (zero when ``assume_centered``) and ``dof = sum(w) - 1`` (``sum(w)`` when
+    ``assume_centered``), so unweighted demeaned data use ``T - 1``.
+
+    Attributes
+    ----------
+    eigenvalues : ndarray of shape (n_components,)
+        The nonzero part of the spectrum, in descending order.
+        ``n_components = min(n_features, rank)`` with ``rank`` the number of
+        rows with positive weight, less one after demeaning. The remaining
+        ``n_features - n_components`` eigenvalues are zero.
+    eigenvectors : ndarray of shape (n_features, n_components)
+        Orthonormal eigenvectors, column ``k`` for ``eigenvalues[k]``.
+    n_samples : float
+        The degrees of freedom ``dof`` (the effective sample size every rule
+        receives as ``n_samples``).
+    n_features : int
+        Dimension N.
+    location : ndarray of shape (n_features,)
+        The (weighted) mean removed from the data, zeros if assume_centered.
+    scale : ndarray of shape (n_features,) or None
+        Column standard deviations when the spectrum is that of the
+        correlation matrix (``standardize=True``), else ``None``.
+    route : {"dense", "gram"}
+        How the spectrum was computed.
+    samples : ndarray of shape (n_rows, n_features) or None
+        The centred (and standardised) rows, kept for rules that need the
+        data themselves (sample splitting); ``None`` when not kept.
+    weights : ndarray of shape (n_rows,) or None
+        The frequency weights of ``samples``; ``None`` means all one.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from rmtclean.spectrum import SampleSpectrum
+    >>> X = np.random.default_rng(0).standard_normal((200, 50))
+    >>> spec = SampleSpectrum.from_data(X)
+    >>> spec.n_samples, spec.n_features, spec.eigenvalues.shape
+    (199.0, 50, (50,))
+    >>> bool(np.all(np.diff(spec.eigenvalues) <= 0))
+    True
+    """
+
+    eigenvalues: np.ndarray
+    eigenvectors: np.ndarray
+    n_samples: float
+    n_features: int
+    location: np.ndarray
+    scale: np.ndarray | None = None
+    route: str = "dense"
+    samples: np.ndarray | None = None
+    weights: np.ndarray | None = None
+
+    @property
+    def n_components(self) -> int:
+        """Number of stored (nonzero) eigenvalues."""
+        return int(self.eigenvalues.shape[0])
+
+    @property
+    def ratio(self) -> float:
+        """Aspect ratio ``n_features / n_samples`` (N / dof)."""
+        return self.n_features / self.n_samples
+
+    def full_eigenvalues(self) -> np.ndarray:
+        """All ``n_features`` eigenvalues, the null space's zeros last."""
+        out = np.zeros(self.n_features)
+        out[: self.n_components] = self.eigenvalues
+        return out
+
+    @classmethod
+    def from_data(
+        cls,
+        X,
+        *,
+        assume_centered: bool = False,
+        sample_weight=None,
+        standardize: bool = False,
+        route: str = "auto",
+        keep_samples: bool = False,
+    ) -> SampleSpectrum:
+        """Decompose the sample covariance of ``X`` (rows are observations).
+
+        Parameters
+        ----------
+        X : array_like of shape (n_samples, n_features)
+            Finite real data; validated by the caller (estimators) or by
+            :func:`sample_spectrum`.
+        assume_centered : bool, default=False
+            If True, do not remove the mean and use ``sum(w)`` as the
+            degrees of freedom.
+        sample_weight : array_like of shape (n_samples,), optional
+            Non-negative frequency weights: an integer weight ``k`` counts a
+            row ``k`` times, exactly as repeating it.
+        standardize : bool, default=False
+            Decompose the correlation matrix instead; ``scale`` then holds
+            the column standard deviations.
+        route : {"auto", "dense", "gram"}, default="auto"
+            ``"dense"`` forms the N x N matrix and calls ``eigh``; ``"gram"``
+            takes the thin SVD of the T x N data and never forms an N x N
+            matrix. ``"auto"`` takes ``"gram"`` when N exceeds the number of
+            rows or :data:`DENSE_LIMIT`.
+        keep_samples : bool, default=False
+            Keep the centred rows in ``samples``.
+        """
+        X = np.asarray(X, dtype=np.float64)
+        n_rows, n_features = X.shape
+        if sample_weight is None:
+            total = float(n_rows)
+            probs = None
+            n_positive = n_rows
+        else:
+            w = np.asarray(sample_weight, dtype=np.float64)
+            total = float(w.sum())
+            probs = w / total
+            n_positive = int(np.count_nonzero(w))
+        dof = total if assume_centered else total - 1.0
+        if dof <= 0:
+            raise ValueError(
+                "The sample covariance needs more than one effective sample: "
+                f"the weights sum to {total!r}, leaving {dof!r} degrees of freedom."
+            )
+        if assume_centered:
+            location = np.zeros(n_features)
+            Xc = X.copy()
+        else:
+            location = X.mean(axis=0) if probs is None else probs @ X
+            Xc = X - location
+        if probs is None:
+            Z = Xc * np.sqrt(1.0 / dof)
+        else:
+            Z = Xc * np.sqrt(probs * (total / dof))[:, None]
+        scale = None
+        if standardize:
+            var = np.einsum("ij,ij->j", Z, Z)
+            bad = np.flatnonzero(~(var > 0))
+            if bad.size:
+                raise ValueError(
+                    "standardize=True needs every column to vary, but "
+                    f"{bad.size} column(s) have zero variance (first index "
+                    f"{int(bad[0])})."
+                )
+            scale = np.sqrt(var)
+            Z /= scale
+            Xc /= scale
+        rank = min(n_features, n_positive - (0 if assume_centered else 1))
+        rank = max(rank, 1)
+        if route == "auto":
+            route = (
+                "gram" if (n_features > n_rows or n_features > DENSE_LIMIT) else "dense"
+            )
+        if route == "dense":
+            cov = Z.T @ Z
+            vals, vecs = np.linalg.eigh(cov)
+            vals = vals[::-1][:rank]
+            vecs = vecs[:, ::-1][:, :rank]
+        elif route == "gram":
+            _, sv, vt = scipy.linalg.svd(
+                Z, full_matrices=False, check_finite=False, lapack_driver="gesdd"
+            )
+            vals = sv[:rank] ** 2
+            vecs = vt[:rank].T
+        else:
+            raise ValueError(
+                "route must be one of 'auto', 'dense' or 'gram'. "
+                f"Got {route!r} instead."
+            )
+        vals = np.maximum(vals, 0.0)
+        return cls(
+            eigenvalues=np.ascontiguousarray(vals),
+            eigenvectors=np.ascontiguousarray(vecs),
+            n_samples=dof,
+            n_features=n_features,
+            location=location,
+            scale=scale,
+            route=route,
+            samples=Xc if keep_samples else None,
+            weights=None if sample_weight is None else np.asarray(sample_weight, float),
+        )
+
+
+def sample_spectrum(
+    X,
+    *,
+    assume_centered: bool = False,
+    sample_weight=None,
+    standardize: bool = False,
+    route: str = "auto",
+) -> SampleSpectrum:
+    """Validate ``X`` and return its :class:`SampleSpectrum`.
+
+    Parameters
+    ----------
+    X : array_like of shape (n_samples, n_features)
+        Rows are observations. Must be finite, real and two-dimensional with
+        at least two rows.
+    assume_centered, sample_weight, standardize, route
+        As in :meth:`SampleSpectrum.from_data`.
+
+    Returns
+    -------
+    SampleSpectrum
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from rmtclean.spectrum import sample_spectrum
+    >>> X = np.random.default_rng(1).standard_normal((30, 100))  # N > T
+    >>> spec = sample_spectrum(X)
+    >>> spec.route, spec.n_components
+    ('gram', 29)
+    """
+    from rmtclean._data import check_data
+    from rmtclean._validation import check_sample_weight
+
+    X = check_data(X, "X", "sample_spectrum")
+    if sample_weight is not None:
+        sample_weight = check_sample_weight(
+            sample_weight, X.shape[0], "sample_spectrum"
+        )
+    return SampleSpectrum.from_data(
+        X,
+        assume_centered=assume_centered,
+        sample_weight=sample_weight,
+        standardize=standardize,
+        route=route,
+    )
