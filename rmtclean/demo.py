@@ -1,0 +1,138 @@
+"""The main job in one command: an invented market, every cleaner, the scores.
+
+The scenario is our own: a made-up equity market of 300 assets in 10
+sectors with a market factor, traded for two years (500 days). The truth is
+known, so each cleaner is scored by its distance to it and by the true
+volatility of the minimum-variance portfolio it builds.
+"""
+
+from __future__ import annotations
+
+import time
+from dataclasses import dataclass
+
+import numpy as np
+from sklearn.covariance import OAS, EmpiricalCovariance, LedoitWolf
+
+from rmtclean.metrics import frobenius_loss, oracle_covariance
+from rmtclean.synthetic import make_design
+
+__all__ = ["DemoResult", "run_demo", "CAUTION"]
+
+#: Printed with every report.
+CAUTION = (
+    "Caution: these are statistical estimates and carry estimation risk. "
+    "They are not investment or medical advice; defer to your own licensed "
+    "professionals and your firm's risk rules."
+)
+
+TRADING_DAYS = 252
+
+
+@dataclass(frozen=True)
+class DemoResult:
+    """Scores of every cleaner on the invented market.
+
+    Attributes
+    ----------
+    n_assets, n_days : int
+    report : str
+        The spectrum report of the sample (``analyze_spectrum``).
+    rows : list of tuple
+        ``(name, frobenius_loss, true annualised minimum-variance
+        volatility in percent, fit seconds)``, the oracle first.
+    """
+
+    n_assets: int
+    n_days: int
+    report: str
+    rows: list
+
+    def __str__(self) -> str:
+        head = f"{'cleaner':<22}{'Frobenius loss':>16}{'min-var vol %':>15}{'fit s':>8}"
+        lines = [head, "-" * len(head)]
+        for name, loss, vol, secs in self.rows:
+            lines.append(f"{name:<22}{loss:>16.4g}{vol:>15.3f}{secs:>8.3f}")
+        return "\n".join(lines)
+
+
+def _cleaners(random_state: int) -> list:
+    import rmtclean
+
+    out = [
+        ("sample (sklearn)", EmpiricalCovariance()),
+        ("LedoitWolf (sklearn)", LedoitWolf()),
+        ("OAS (sklearn)", OAS()),
+    ]
+    for name, params in [
+        ("EigenClip", {}),
+        ("LinearShrink", {}),
+        ("KernelShrink", {}),
+        ("StieltjesShrink", {}),
+        ("SpikeShrink", {}),
+        ("SplitShrink", {"random_state": random_state}),
+    ]:
+        out.append((name, getattr(rmtclean, name)(**params)))
+    return out
+
+
+def _min_variance_vol(covariance: np.ndarray, truth: np.ndarray) -> float:
+    ones = np.ones(truth.shape[0])
+    w = np.linalg.solve(covariance, ones)
+    w /= w.sum()
+    return float(np.sqrt(w @ truth @ w * TRADING_DAYS) * 100.0)
+
+
+def run_demo(
+    *, n_assets: int = 300, n_days: int = 500, random_state: int = 7
+) -> DemoResult:
+    """Clean the invented market's covariance with every cleaner.
+
+    Parameters
+    ----------
+    n_assets, n_days : int
+        Size of the invented market (defaults: 300 assets, two years).
+    random_state : int
+        Seed of the scenario.
+
+    Returns
+    -------
+    DemoResult
+
+    Examples
+    --------
+    >>> from rmtclean.demo import run_demo
+    >>> result = run_demo(n_assets=40, n_days=80, random_state=0)
+    >>> result.rows[0][0]
+    'oracle'
+    """
+    from rmtclean.spectrum import analyze_spectrum
+
+    rng = np.random.default_rng(random_state)
+    design = make_design(
+        "block-factor",
+        n_assets,
+        n_blocks=10,
+        market_variance=1.0,
+        block_variance=0.6,
+        random_state=rng,
+    )
+    daily = 1e-4  # variances of daily returns near 1% volatility squared
+    truth = np.asarray(design.covariance) * daily
+    X = design.sample(n_days, distribution="gaussian", random_state=rng)
+    X *= np.sqrt(daily)
+    report = str(analyze_spectrum(X, standardize=True))
+    rows = []
+    oracle = oracle_covariance(X, truth)
+    rows.append(
+        ("oracle", frobenius_loss(oracle, truth), _min_variance_vol(oracle, truth), 0.0)
+    )
+    for name, est in _cleaners(random_state):
+        start = time.perf_counter()
+        est.fit(X)
+        secs = time.perf_counter() - start
+        cov = np.asarray(est.covariance_, dtype=float)
+        rows.append(
+            (name, frobenius_loss(cov, truth), _min_variance_vol(cov, truth), secs)
+        )
+    return DemoResult(n_assets=n_assets, n_days=n_days, report=report, rows=rows)
