@@ -212,21 +212,27 @@ def test_rule_null_space_value(rng):
     assert total == pytest.approx(vals.sum(), rel=1e-14)
 
 
-def test_rule_ledoit_wolf_with_dof_divisor_is_the_published_b2(rng):
-    # Ledoit & Wolf (2004), J. Multivariate Anal. 88(2) (REFERENCES.md item 7, from
-    # memory): b_bar^2 = (1/n^2) sum_k ||x_k x_k' - S||^2 with ||A||^2 = tr(AA')/p,
-    # evaluated here with divisor n = T - 1 (rmtclean's degrees of freedom).
-    T, N = 30, 12
-    X = _data(rng, T, N)
-    Xc = X - X.mean(axis=0)
-    n = T - 1
+def lw2004_intensity(Xc, n):
+    """Ledoit & Wolf (2004), J. Multivariate Anal. 88(2) (REFERENCES.md item 7,
+    from memory), written out: S = X'X/n, m = tr(S)/p, d^2 = ||S - m I||^2,
+    b_bar^2 = (1/n^2) sum_k ||x_k x_k' - S||^2 with ||A||^2 = tr(AA')/p,
+    intensity min(b_bar^2, d^2)/d^2. Returns (intensity, S, m)."""
+    N = Xc.shape[1]
     S = Xc.T @ Xc / n
     mu = np.trace(S) / N
     d2 = np.sum((S - mu * np.eye(N)) ** 2) / N
     b2 = sum(np.sum((np.outer(x, x) - S) ** 2) / N for x in Xc) / n**2
-    expected = min(b2, d2) / d2
+    return min(b2, d2) / d2, S, mu
+
+
+def test_rule_ledoit_wolf_with_dof_divisor_is_the_published_b2(rng):
+    # The published b_bar^2 evaluated with divisor n = T - 1 (rmtclean's dof).
+    T, N = 30, 12
+    X = _data(rng, T, N)
+    Xc = X - X.mean(axis=0)
+    expected, S, _ = lw2004_intensity(Xc, T - 1)
     vals = np.linalg.eigvalsh(S)[::-1][: T - 1]
-    out = linear_shrink(vals, n, N, squared_norms=np.einsum("ij,ij->i", Xc, Xc))
+    out = linear_shrink(vals, T - 1, N, squared_norms=np.einsum("ij,ij->i", Xc, Xc))
     assert out.details["intensity"] == pytest.approx(expected, rel=RTOL)
 
 

@@ -1,0 +1,197 @@
+"""Tests of the LinearShrink estimator."""
+
+import numpy as np
+import pytest
+from sklearn.covariance import OAS, LedoitWolf, ShrunkCovariance
+from sklearn.utils.estimator_checks import parametrize_with_checks
+
+from rmtclean.estimators import LinearShrink
+from rmtclean.exceptions import InvalidParameterError
+from rmtclean.rules import linear_shrink, linear_shrink_covariance
+from tests.test_rule_linear import lw2004_intensity
+
+SHAPES = [(60, 8), (25, 70), (30, 1)]
+TARGETS = ["identity", "diagonal", "constant-correlation"]
+RTOL = 1e-10
+
+
+def _data(rng, T, N):
+    A = rng.standard_normal((N, N)) / np.sqrt(N) + np.eye(N)
+    return rng.standard_t(df=6, size=(T, N)) @ A + rng.standard_normal(N)
+
+
+def _close(a, b, rtol=RTOL):
+    """Equal to rtol relative to the largest entry of the reference."""
+    np.testing.assert_allclose(a, b, rtol=0, atol=rtol * np.abs(b).max())
+
+
+@parametrize_with_checks(
+    [
+        LinearShrink(),
+        LinearShrink(intensity="oas"),
+        LinearShrink(target="diagonal"),
+        LinearShrink(target="constant-correlation", intensity=0.3),
+    ]
+)
+def test_sklearn_checks(estimator, check):
+    check(estimator)
+
+
+# -- scikit-learn equality (REFERENCES.md item 7 [paper]: divisor n, demeaned) -----
+@pytest.mark.parametrize("shape", SHAPES)
+@pytest.mark.parametrize("assume_centered", [False, True])
+@pytest.mark.parametrize(
+    "intensity,reference",
+    [
+        ("ledoit-wolf", LedoitWolf),
+        ("oas-sklearn", OAS),
+        (0.2, lambda **kw: ShrunkCovariance(shrinkage=0.2, **kw)),
+    ],
+)
+def test_equals_sklearn(rng, shape, assume_centered, intensity, reference):
+    X = _data(rng, *shape)
+    est = LinearShrink(intensity=intensity, assume_centered=assume_centered).fit(X)
+    ref = reference(assume_centered=assume_centered).fit(X)
+    _close(est.covariance_, ref.covariance_)
+    _close(est.precision_, ref.precision_)
+    np.testing.assert_allclose(est.location_, ref.location_, rtol=1e-14, atol=0)
+    shrinkage = getattr(ref, "shrinkage_", getattr(ref, "shrinkage", None))
+    assert est.shrinkage_ == pytest.approx(shrinkage, rel=RTOL, abs=1e-300)
+    X_test = _data(np.random.default_rng(1), 20, shape[1])
+    assert est.score(X_test) == pytest.approx(ref.score(X_test), rel=1e-10)
+    assert est.degrees_of_freedom_ == shape[0]
+
+
+@pytest.mark.parametrize("shape", [(60, 8), (25, 70)])
+@pytest.mark.parametrize("target", TARGETS)
+def test_equals_function(rng, shape, target):
+    X = _data(rng, *shape)
+    est = LinearShrink(target=target).fit(X)
+    cov, delta = linear_shrink_covariance(X, target=target)
+    assert est.shrinkage_ == pytest.approx(delta, rel=1e-12)
+    _close(est.covariance_, cov)
+    _close(est.precision_ @ est.covariance_, np.eye(shape[1]))
+
+
+@pytest.mark.parametrize("shape", [(60, 8), (25, 70)])
+@pytest.mark.parametrize("intensity", ["ledoit-wolf", "oas", 0.4])
+def test_gram_route_equals_dense_route(rng, shape, intensity):
+    X = _data(rng, *shape)
+    dense = LinearShrink(intensity=intensity, route="dense").fit(X)
+    gram = LinearShrink(intensity=intensity, route="gram").fit(X)
+    assert gram.shrinkage_ == pytest.approx(dense.shrinkage_, rel=1e-12)
+    _close(gram.covariance_, dense.covariance_)
+    np.testing.assert_allclose(
+        gram.sample_eigenvalues_,
+        dense.sample_eigenvalues_,
+        rtol=0,
+        atol=1e-10 * dense.sample_eigenvalues_[0],
+    )
+
+
+@pytest.mark.parametrize("shape", [(60, 8), (25, 70)])
+def test_identity_eigenvalues_are_paired(rng, shape):
+    X = _data(rng, *shape)
+    est = LinearShrink().fit(X)
+    lam = est.sample_eigenvalues_
+    mu = lam.sum() / shape[1]
+    d = est.shrinkage_
+    np.testing.assert_allclose(est.eigenvalues_, (1 - d) * lam + d * mu, rtol=1e-13)
+    # The sample eigenvalues carry the divisor T, like covariance_.
+    Xc = X - X.mean(axis=0)
+    top = np.linalg.eigvalsh(Xc.T @ Xc / shape[0])[::-1]
+    np.testing.assert_allclose(lam, np.maximum(top, 0), rtol=0, atol=1e-10 * top[0])
+
+
+def test_bias_false_uses_degrees_of_freedom(rng):
+    # Ledoit & Wolf (2004) (REFERENCES.md item 7, from memory) evaluated with
+    # S = X_c'X_c/(T-1) and n = T - 1 by the written-out reference.
+    T, N = 30, 10
+    X = _data(rng, T, N)
+    est = LinearShrink(bias=False).fit(X)
+    delta, S, mu = lw2004_intensity(X - X.mean(axis=0), T - 1)
+    assert est.shrinkage_ == pytest.approx(delta, rel=RTOL)
+    _close(est.covariance_, (1 - delta) * S + delta * mu * np.eye(N))
+    assert est.degrees_of_freedom_ == T - 1
+    np.testing.assert_allclose(np.cov(X.T), S, rtol=1e-12)
+
+
+@pytest.mark.parametrize("target", TARGETS)
+def test_standardize_cleans_the_correlation(rng, target):
+    # [computed] standardize=True shrinks the standardised data and restores the
+    # (T - 1)-divisor column scales.
+    T, N = 50, 6
+    X = _data(rng, T, N)
+    est = LinearShrink(target=target, standardize=True).fit(X)
+    Xc = X - X.mean(axis=0)
+    sd = Xc.std(axis=0, ddof=1)
+    inner, delta = linear_shrink_covariance(
+        Xc / sd, target=target, assume_centered=True
+    )
+    assert est.shrinkage_ == pytest.approx(delta, rel=1e-12)
+    _close(est.covariance_, inner * np.outer(sd, sd))
+
+
+@pytest.mark.parametrize("target", TARGETS)
+def test_frequency_weights_repeat_rows(rng, target):
+    T, N = 30, 5
+    X = _data(rng, T, N)
+    w = rng.integers(0, 4, size=T)
+    w[0] = 1
+    weighted = LinearShrink(target=target).fit(X, sample_weight=w.astype(float))
+    repeated = LinearShrink(target=target).fit(np.repeat(X, w, axis=0))
+    assert weighted.shrinkage_ == pytest.approx(repeated.shrinkage_, rel=1e-11)
+    _close(weighted.covariance_, repeated.covariance_)
+
+
+@pytest.mark.parametrize("target", ["diagonal", "constant-correlation"])
+def test_structured_spectrum_is_that_of_the_covariance(rng, target):
+    X = _data(rng, 40, 7)
+    est = LinearShrink(target=target).fit(X)
+    vals = np.linalg.eigvalsh(est.covariance_)[::-1]
+    np.testing.assert_allclose(est.eigenvalues_, vals, rtol=1e-12)
+    Z = X - est.location_
+    np.testing.assert_allclose(
+        est.mahalanobis(X),
+        np.einsum("ij,jk,ik->i", Z, np.linalg.inv(est.covariance_), Z),
+        rtol=1e-10,
+    )
+    assert est.n_signal_ is None
+
+
+def test_float32_input_gives_float32(rng):
+    X = _data(rng, 40, 5).astype(np.float32)
+    est = LinearShrink().fit(X)
+    assert est.covariance_.dtype == np.float32
+    assert est.transform(X).dtype == np.float32
+
+
+def test_input_not_modified(rng):
+    X = _data(rng, 20, 4)
+    X0 = X.copy()
+    LinearShrink(target="constant-correlation").fit(X)
+    np.testing.assert_array_equal(X, X0)
+
+
+def test_rule_and_estimator_share_the_intensity(rng):
+    # The estimator's identity path is the rule on its spectrum.
+    X = _data(rng, 40, 6)
+    est = LinearShrink(intensity="oas").fit(X)
+    out = linear_shrink(est.sample_eigenvalues_, 40, 6, intensity="oas")
+    assert out.details["intensity"] == pytest.approx(est.shrinkage_, rel=1e-12)
+
+
+def test_bad_parameters(rng):
+    X = _data(rng, 20, 4)
+    with pytest.raises(InvalidParameterError, match="'target' parameter of Linear"):
+        LinearShrink(target="ones").fit(X)
+    with pytest.raises(InvalidParameterError, match="Got 1.5 instead"):
+        LinearShrink(intensity=1.5).fit(X)
+    with pytest.raises(InvalidParameterError, match="'bias' parameter"):
+        LinearShrink(bias="yes").fit(X)
+    with pytest.raises(ValueError, match="LinearShrink: the OAS intensity"):
+        LinearShrink(target="diagonal", intensity="oas").fit(X)
+    Xz = X.copy()
+    Xz[:, 1] = 3.0
+    with pytest.raises(ValueError, match="zero variance"):
+        LinearShrink(target="constant-correlation").fit(Xz)
