@@ -1,6 +1,6 @@
 """rmtclean: clean large sample covariance matrices with random-matrix theory."""
 
-from rmtclean.estimators import SpectralCovariance
+from rmtclean.estimators import LinearShrink, SpectralCovariance
 from rmtclean.rules import CleanedEigenvalues
 from rmtclean.spectrum import CleanedSpectrum, SampleSpectrum, sample_spectrum
 
@@ -10,6 +10,7 @@ __all__ = sorted(
     [
         "CleanedEigenvalues",
         "CleanedSpectrum",
+        "LinearShrink",
         "SampleSpectrum",
         "SpectralCovariance",
         "sample_spectrum",
