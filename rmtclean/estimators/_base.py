@@ -8,6 +8,7 @@ from sklearn.covariance import EmpiricalCovariance
 from sklearn.utils.validation import check_is_fitted, validate_data
 
 from rmtclean._validation import BOOLEAN, Options, check_params, check_sample_weight
+from rmtclean.distributed import dask_sample_spectrum, is_dask_array
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import CleanedSpectrum, SampleSpectrum
 
@@ -117,6 +118,8 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         self : object
         """
         check_params(self)
+        if is_dask_array(X):
+            return self._fit_dask(X, sample_weight)
         X = self._validate_fit_data(X)
         if sample_weight is not None:
             sample_weight = check_sample_weight(
@@ -131,6 +134,28 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
             keep_samples=self._needs_samples,
         )
         self._store(spectrum, self._clean(spectrum), X.dtype)
+        return self
+
+    def _fit_dask(self, X, sample_weight):
+        owner = type(self).__name__
+        if self._needs_samples:
+            raise TypeError(
+                f"{owner} needs the data rows in memory and does not accept a "
+                "dask array; pass a numpy array or use another cleaner."
+            )
+        spectrum = dask_sample_spectrum(
+            X,
+            assume_centered=self.assume_centered,
+            sample_weight=sample_weight,
+            standardize=self.standardize,
+            route=self.route,
+            owner=f"{owner}.fit",
+        )
+        self.n_features_in_ = int(X.shape[1])
+        if hasattr(self, "feature_names_in_"):
+            del self.feature_names_in_
+        dtype = np.float32 if X.dtype == np.float32 else np.float64
+        self._store(spectrum, self._clean(spectrum), dtype)
         return self
 
     def _validate_fit_data(self, X):
