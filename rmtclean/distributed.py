@@ -12,7 +12,12 @@ from __future__ import annotations
 
 import numpy as np
 
-from rmtclean.spectrum._sample import DENSE_LIMIT, SampleSpectrum
+from rmtclean.spectrum._sample import (
+    DENSE_LIMIT,
+    SampleSpectrum,
+    complete_basis,
+    gram_pairs,
+)
 
 __all__ = ["is_dask_array", "dask_sample_spectrum"]
 
@@ -149,13 +154,8 @@ def dask_sample_spectrum(
             scale = _column_scale(np.asarray((Z * Z).sum(axis=0).compute()))
             Z = Z / scale
             scatter = np.asarray((Z @ Z.T).compute())
-        vals, U = np.linalg.eigh(scatter)
-        vals = np.maximum(vals[::-1][:rank], 0.0)
-        U = U[:, ::-1][:, :rank]
-        keep = vals > vals[0] * 1e-13 if vals[0] > 0 else np.zeros(rank, bool)
-        vals = vals[keep]
-        vecs = np.asarray((Z.T @ (U[:, keep] / np.sqrt(vals))).compute())
-        vecs, _ = np.linalg.qr(vecs)  # re-orthonormalise against rounding
+        vals, coef, tiny = gram_pairs(scatter, rank)
+        vecs = complete_basis(np.asarray((Z.T @ coef).compute()), tiny)
     return SampleSpectrum(
         eigenvalues=np.ascontiguousarray(vals),
         eigenvectors=np.ascontiguousarray(vecs),

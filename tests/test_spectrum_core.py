@@ -172,3 +172,15 @@ def test_logdet_of_singular_is_minus_inf(rng):
     V = np.linalg.qr(rng.standard_normal((4, 4)))[0]
     cs = CleanedSpectrum(V, np.array([2.0, 1.0, 0.5, 0.0]))
     assert cs.logdet() == -np.inf
+
+
+def test_gram_route_with_duplicated_rows_stays_orthonormal(rng):
+    # Rank deficiency beyond T - 1: repeated rows give exactly zero Gram
+    # eigenvalues; the eigenvectors must still be orthonormal.
+    X = rng.standard_normal((10, 200))
+    X = np.vstack([X, X[:5]])
+    spec = SampleSpectrum.from_data(X, route="gram")
+    V = spec.eigenvectors
+    np.testing.assert_allclose(V.T @ V, np.eye(V.shape[1]), atol=1e-10)
+    S = np.cov(X, rowvar=False)
+    np.testing.assert_allclose((V * spec.eigenvalues) @ V.T, S, atol=1e-10)

@@ -7,10 +7,17 @@ from sklearn.base import OneToOneFeatureMixin, TransformerMixin
 from sklearn.covariance import EmpiricalCovariance
 from sklearn.utils.validation import check_is_fitted, validate_data
 
-from rmtclean._validation import BOOLEAN, Options, check_params, check_sample_weight
+from rmtclean._validation import (
+    BOOLEAN,
+    Interval,
+    Options,
+    check_params,
+    check_sample_weight,
+)
 from rmtclean.distributed import dask_sample_spectrum, is_dask_array
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import CleanedSpectrum, SampleSpectrum
+from rmtclean.weights import exponential_weights, kish_weights
 
 __all__ = ["SpectralCovariance", "DENSE_STORE_LIMIT"]
 
@@ -30,8 +37,8 @@ _COMMON_DOC = """
         and ``R`` the cleaned correlation.
     route : {"auto", "dense", "gram"}, default="auto"
         How the sample spectrum is computed: ``"dense"`` forms the N x N
-        sample covariance and calls ``eigh``; ``"gram"`` takes the thin SVD
-        of the data and never forms an N x N matrix. ``"auto"`` uses
+        sample covariance and calls ``eigh``; ``"gram"`` diagonalises the
+        T x T Gram matrix of the data and never forms an N x N matrix. ``"auto"`` uses
         ``"gram"`` when N exceeds the number of samples or 5,000.
     store_covariance : "auto" or bool, default="auto"
         Whether ``covariance_`` (and ``precision_``) are stored as dense
@@ -40,7 +47,29 @@ _COMMON_DOC = """
         :class:`~rmtclean.spectrum.CleanedSpectrum`) serves ``score``,
         ``mahalanobis``, ``transform`` and ``spectrum_.solve/logdet``
         without an N x N array.
+    half_life : float or None, default=None
+        Weight the rows (in time order, oldest first) by
+        ``2 ** (-age / half_life)``, the newest row weight 1. The rules then
+        see Kish's effective sample size ``n_eff = (sum w)^2 / sum w^2`` in
+        place of ``T``: ``degrees_of_freedom_ = n_eff - 1`` (``n_eff`` if
+        ``assume_centered``), and the Marchenko-Pastur ratio is ``N / dof``.
+        Combines with ``sample_weight`` (frequency weights) as in
+        :func:`rmtclean.weights.kish_weights`.
+    missing : {"error", "pairwise", "em"}, default="error"
+        What to do with NaN entries in ``X``. ``"error"`` raises.
+        ``"pairwise"`` cleans the pairwise-deletion covariance, ``"em"`` the
+        Gaussian EM estimate (see :mod:`rmtclean.missing`); the cleaned
+        eigenvalues are floored at ``1e-8`` times their mean, so the result
+        is positive definite. Caveats: the rules were derived for complete
+        data and receive a heuristic sample size (the mean number of rows two
+        columns share, less one); pairwise estimates can be indefinite before
+        cleaning (negative eigenvalues are set to zero); neither weights nor
+        cleaners that need the data rows are supported.
 """
+
+#: Cleaned eigenvalues of an incomplete-data fit are at least this times their
+#: mean, which makes the result positive definite.
+MISSING_FLOOR = 1e-8
 
 
 class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovariance):
@@ -78,6 +107,8 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         "standardize": [BOOLEAN],
         "route": [Options({"auto", "dense", "gram"})],
         "store_covariance": [Options({"auto"}), BOOLEAN],
+        "half_life": [None, Interval(float, 0.0, None, closed="neither")],
+        "missing": [Options({"error", "pairwise", "em"})],
     }
     _needs_samples = False
 
@@ -89,12 +120,16 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         standardize=False,
         route="auto",
         store_covariance="auto",
+        half_life=None,
+        missing="error",
     ):
         self.store_precision = store_precision
         self.assume_centered = assume_centered
         self.standardize = standardize
         self.route = route
         self.store_covariance = store_covariance
+        self.half_life = half_life
+        self.missing = missing
 
     # -- the seam ---------------------------------------------------------
     def _clean(self, spectrum: SampleSpectrum):  # pragma: no cover - abstract
@@ -111,7 +146,9 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         y : Ignored
         sample_weight : array-like of shape (n_samples,), default=None
             Non-negative frequency weights: an integer weight ``k`` counts
-            a row ``k`` times. The degrees of freedom are ``sum(w) - 1``.
+            a row ``k`` times. The degrees of freedom are ``sum(w) - 1``
+            (with ``half_life``: the Kish size of the combined weights, less
+            one).
 
         Returns
         -------
@@ -121,10 +158,9 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         if is_dask_array(X):
             return self._fit_dask(X, sample_weight)
         X = self._validate_fit_data(X)
-        if sample_weight is not None:
-            sample_weight = check_sample_weight(
-                sample_weight, X.shape[0], type(self).__name__
-            )
+        if self._missing_method() != "error" and np.isnan(X).any():
+            return self._fit_missing(X, sample_weight)
+        sample_weight = self._fit_weights(sample_weight, X.shape[0])
         spectrum = SampleSpectrum.from_data(
             X,
             assume_centered=self.assume_centered,
@@ -143,6 +179,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
                 f"{owner} needs the data rows in memory and does not accept a "
                 "dask array; pass a numpy array or use another cleaner."
             )
+        sample_weight = self._fit_weights(sample_weight, X.shape[0])
         spectrum = dask_sample_spectrum(
             X,
             assume_centered=self.assume_centered,
@@ -158,15 +195,79 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         self._store(spectrum, self._clean(spectrum), dtype)
         return self
 
+    def _missing_method(self) -> str:
+        return getattr(self, "missing", "error")
+
+    def _fit_weights(self, sample_weight, n_rows):
+        """Validated frequency weights, combined with the half-life decay."""
+        owner = type(self).__name__
+        if sample_weight is not None:
+            sample_weight = check_sample_weight(sample_weight, n_rows, owner)
+        half_life = getattr(self, "half_life", None)
+        if half_life is None:
+            return sample_weight
+        # Rescaled to sum to Kish's effective size: read as frequency weights
+        # they give n_eff - 1 degrees of freedom (rmtclean.weights.kish_weights).
+        return kish_weights(exponential_weights(n_rows, half_life), sample_weight)
+
+    def _fit_missing(self, X, sample_weight):
+        from rmtclean.missing import missing_sample_spectrum
+
+        owner = type(self).__name__
+        method = self._missing_method()
+        if sample_weight is not None or getattr(self, "half_life", None) is not None:
+            raise ValueError(
+                f"{owner}.fit: missing={method!r} does not support sample_weight "
+                "or half_life; pass complete data or drop the weights."
+            )
+        if self._needs_samples:
+            raise ValueError(
+                f"{owner}.fit: missing={method!r} is not supported by {owner}, "
+                "which needs the complete data rows; use another cleaner or "
+                "complete the data."
+            )
+        spectrum = missing_sample_spectrum(
+            X,
+            method=method,
+            assume_centered=self.assume_centered,
+            standardize=self.standardize,
+        )
+        cleaned = self._clean(spectrum)
+        if isinstance(cleaned, CleanedEigenvalues):
+            values = np.asarray(cleaned.values, dtype=np.float64)
+            floor = MISSING_FLOOR * max(
+                spectrum.eigenvalues.sum() / spectrum.n_features, 1e-300
+            )
+            null = cleaned.null_value
+            cleaned = CleanedEigenvalues(
+                np.maximum(values, floor),
+                null_value=None if null is None else max(float(null), floor),
+                n_signal=cleaned.n_signal,
+                details=cleaned.details,
+            )
+        self._store(spectrum, cleaned, X.dtype)
+        return self
+
     def _validate_fit_data(self, X):
+        allow_nan = self._missing_method() != "error"
         try:
             return validate_data(
-                self, X, dtype=[np.float64, np.float32], ensure_min_samples=2
+                self,
+                X,
+                dtype=[np.float64, np.float32],
+                ensure_min_samples=2,
+                ensure_all_finite="allow-nan" if allow_nan else True,
             )
         except ValueError as exc:
             if "standardize" in str(exc):
                 raise
-            raise ValueError(f"{type(self).__name__}.fit: {exc}") from exc
+            hint = (
+                " Pass missing='pairwise' or missing='em' to estimate from "
+                "incomplete data."
+                if "NaN" in str(exc) and not allow_nan
+                else ""
+            )
+            raise ValueError(f"{type(self).__name__}.fit: {exc}{hint}") from exc
 
     def _store(self, spectrum: SampleSpectrum, cleaned, dtype) -> None:
         n_features = spectrum.n_features
@@ -217,6 +318,45 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         if self.precision_ is not None:
             return self.precision_
         return self.spectrum_.to_dense(-1.0)
+
+    def covariance_frame(self):
+        """The cleaned covariance as a DataFrame labelled by the feature names.
+
+        Labels are ``feature_names_in_`` when the fit saw a DataFrame, else
+        ``x0, x1, ...`` (as ``get_feature_names_out``). Densifies
+        ``spectrum_`` when ``covariance_`` is not stored. Needs pandas.
+
+        Returns
+        -------
+        pandas.DataFrame of shape (n_features, n_features)
+        """
+        check_is_fitted(self)
+        import pandas as pd
+
+        cov = self.covariance_
+        if cov is None:
+            cov = self.spectrum_.to_dense()
+        names = self.get_feature_names_out()
+        return pd.DataFrame(np.array(cov), index=names, columns=names)
+
+    def correlation_frame(self):
+        """The cleaned covariance scaled to unit diagonal, as a labelled DataFrame.
+
+        ``R = D^{-1/2} C D^{-1/2}`` with ``D = diag(C)``; with ``standardize``
+        this is the cleaned correlation re-normalised (cleaning the
+        eigenvalues of a correlation matrix need not keep its unit
+        diagonal). Labels as in :meth:`covariance_frame`.
+
+        Returns
+        -------
+        pandas.DataFrame of shape (n_features, n_features)
+        """
+        frame = self.covariance_frame()
+        values = frame.to_numpy()
+        sd = np.sqrt(np.diag(values))
+        corr = values / np.outer(sd, sd)
+        np.fill_diagonal(corr, 1.0)
+        return frame.__class__(corr, index=frame.index, columns=frame.columns)
 
     def _centred_columns(self, X):
         X = validate_data(self, X, reset=False, dtype=[np.float64, np.float32])

@@ -5,7 +5,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-import scipy.linalg
 
 __all__ = ["SampleSpectrum", "sample_spectrum"]
 
@@ -116,9 +115,10 @@ class SampleSpectrum:
             the column standard deviations.
         route : {"auto", "dense", "gram"}, default="auto"
             ``"dense"`` forms the N x N matrix and calls ``eigh``; ``"gram"``
-            takes the thin SVD of the T x N data and never forms an N x N
-            matrix. ``"auto"`` takes ``"gram"`` when N exceeds the number of
-            rows or :data:`DENSE_LIMIT`.
+            diagonalises the T x T Gram matrix of the data and maps its
+            eigenvectors back, never forming an N x N matrix. ``"auto"``
+            takes ``"gram"`` when N exceeds the number of rows or
+            :data:`DENSE_LIMIT`.
         keep_samples : bool, default=False
             Keep the centred rows in ``samples``.
         """
@@ -174,11 +174,7 @@ class SampleSpectrum:
             vals = vals[::-1][:rank]
             vecs = vecs[:, ::-1][:, :rank]
         elif route == "gram":
-            _, sv, vt = scipy.linalg.svd(
-                Z, full_matrices=False, check_finite=False, lapack_driver="gesdd"
-            )
-            vals = sv[:rank] ** 2
-            vecs = vt[:rank].T
+            vals, vecs = _gram_eigh(Z, rank)
         else:
             raise ValueError(
                 "route must be one of 'auto', 'dense' or 'gram'. "
@@ -196,6 +192,41 @@ class SampleSpectrum:
             samples=Xc if keep_samples else None,
             weights=None if sample_weight is None else np.asarray(sample_weight, float),
         )
+
+
+def _gram_eigh(Z: np.ndarray, rank: int) -> tuple[np.ndarray, np.ndarray]:
+    """Top ``rank`` eigenpairs of ``Z'Z`` from the n_rows x n_rows Gram ``Z Z'``.
+
+    Never forms an N x N matrix: O(T^2 N) time and O(T N) memory.
+    """
+    vals, coef, tiny = gram_pairs(Z @ Z.T, rank)
+    return vals, complete_basis(Z.T @ coef, tiny)
+
+
+def gram_pairs(gram: np.ndarray, rank: int):
+    """Eigenvalues of a Gram matrix and the map back to feature space.
+
+    Returns the top ``rank`` eigenvalues (descending), the coefficients
+    ``U / sqrt(vals)`` so that ``Z' @ coef`` are the feature-space
+    eigenvectors, and a mask of the numerically zero eigenvalues.
+    """
+    vals, U = np.linalg.eigh(gram)
+    vals = np.maximum(vals[::-1][:rank], 0.0)
+    U = U[:, ::-1][:, :rank]
+    tiny = vals <= vals[0] * 1e-10 if vals[0] > 0 else np.ones(rank, bool)
+    return vals, U / np.sqrt(np.where(tiny, 1.0, vals)), tiny
+
+
+def complete_basis(vecs: np.ndarray, tiny: np.ndarray) -> np.ndarray:
+    """Make ``vecs`` orthonormal where columns of zero eigenvalue are garbage.
+
+    A QR step (signs kept) completes them to an orthonormal set; any
+    direction of the null space is a valid eigenvector for them.
+    """
+    if not np.any(tiny):
+        return vecs
+    q, r = np.linalg.qr(vecs)
+    return q * np.where(np.diag(r) < 0, -1.0, 1.0)
 
 
 def sample_spectrum(
