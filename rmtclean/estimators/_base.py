@@ -261,13 +261,14 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         except ValueError as exc:
             if "standardize" in str(exc):
                 raise
-            hint = (
-                " Pass missing='pairwise' or missing='em' to estimate from "
-                "incomplete data."
-                if "NaN" in str(exc) and not allow_nan
-                else ""
-            )
-            raise ValueError(f"{type(self).__name__}.fit: {exc}{hint}") from exc
+            owner = type(self).__name__
+            if "NaN" in str(exc) and not allow_nan:
+                raise ValueError(
+                    f"{owner}.fit: {str(exc).splitlines()[0]} Pass "
+                    "missing='pairwise' or missing='em' to estimate from "
+                    "incomplete data."
+                ) from exc
+            raise ValueError(f"{owner}.fit: {exc}") from exc
 
     def _store(self, spectrum: SampleSpectrum, cleaned, dtype) -> None:
         n_features = spectrum.n_features
