@@ -1,0 +1,74 @@
+"""Helpers shared by the limit laws: array handling, random draws, inversion."""
+
+from __future__ import annotations
+
+import numbers
+
+import numpy as np
+
+from rmtclean._validation import Interval, check_value
+
+__all__ = [
+    "bisect_increasing",
+    "check_positive",
+    "finish",
+    "uniform_draws",
+]
+
+
+def check_positive(value, name: str, owner: str) -> float:
+    """Return ``value`` as a float after checking it is finite and > 0."""
+    check_value(value, [Interval(float, 0.0, np.inf, closed="neither")], name, owner)
+    return float(value)
+
+
+def finish(out: np.ndarray):
+    """Return a Python scalar for 0-d results, else the array."""
+    out = np.asarray(out)
+    if out.ndim == 0:
+        return out.item()
+    return out
+
+
+def uniform_draws(size, random_state, owner: str) -> np.ndarray:
+    """Uniform (0, 1) draws from an explicit generator (never the global one).
+
+    ``random_state`` may be None, an int, a ``numpy.random.Generator`` or a
+    ``numpy.random.RandomState``.
+    """
+    if isinstance(random_state, np.random.RandomState):
+        u = random_state.random_sample(size)
+    elif (
+        random_state is None
+        or isinstance(random_state, np.random.Generator)
+        or (
+            isinstance(random_state, numbers.Integral)
+            and not isinstance(random_state, bool)
+        )
+    ):
+        u = np.random.default_rng(random_state).random(size)
+    else:
+        raise TypeError(
+            f"The 'random_state' parameter of {owner}.rvs must be an int, a numpy "
+            f"Generator or RandomState instance, or None. Got {random_state!r} "
+            "instead."
+        )
+    # random() draws from [0, 1); 0 would map to the lower end of the support.
+    return np.where(u == 0.0, np.finfo(float).tiny, u)
+
+
+def bisect_increasing(func, target, lo, hi, n_iter: int = 64) -> np.ndarray:
+    """Solve ``func(x) = target`` for a nondecreasing ``func`` on ``[lo, hi]``.
+
+    Vectorised bisection; returns the midpoint of the final bracket, which
+    after ``n_iter = 64`` halvings is exact to floating-point resolution.
+    """
+    target = np.asarray(target, dtype=float)
+    lo = np.broadcast_to(np.asarray(lo, dtype=float), target.shape).copy()
+    hi = np.broadcast_to(np.asarray(hi, dtype=float), target.shape).copy()
+    for _ in range(n_iter):
+        mid = 0.5 * (lo + hi)
+        below = func(mid) < target
+        lo = np.where(below, mid, lo)
+        hi = np.where(below, hi, mid)
+    return 0.5 * (lo + hi)
