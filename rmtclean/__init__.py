@@ -1,6 +1,6 @@
 """rmtclean: clean large sample covariance matrices with random-matrix theory."""
 
-from rmtclean.estimators import LinearShrink, SpectralCovariance
+from rmtclean.estimators import LinearShrink, SpectralCovariance, SplitShrink
 from rmtclean.rules import CleanedEigenvalues
 from rmtclean.spectrum import CleanedSpectrum, SampleSpectrum, sample_spectrum
 
@@ -13,6 +13,7 @@ __all__ = sorted(
         "LinearShrink",
         "SampleSpectrum",
         "SpectralCovariance",
+        "SplitShrink",
         "sample_spectrum",
     ]
 )

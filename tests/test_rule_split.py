@@ -259,6 +259,7 @@ def test_grid_values():
         ({"train_size": 3, "shuffle": False, "n_splits": 5}, "at most.*= 4"),
         ({"eigenvectors": np.ones((5, 2))}, "orthonormal"),
         ({"eigenvectors": np.eye(4)}, "shape \\(5, n_components\\)"),
+        ({"sample_weight": np.ones(3)}, "sample_weight of split_shrink.*\\(30,\\)"),
     ],
 )
 def test_bad_parameters(data, kwargs, match):

@@ -2,10 +2,12 @@
 
 from rmtclean.estimators._base import SpectralCovariance
 from rmtclean.estimators._linear import LinearShrink
+from rmtclean.estimators._split import SplitShrink
 
 __all__ = sorted(
     [
         "LinearShrink",
         "SpectralCovariance",
+        "SplitShrink",
     ]
 )

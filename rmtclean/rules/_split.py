@@ -64,7 +64,14 @@ import numbers
 import numpy as np
 
 from rmtclean._data import check_data
-from rmtclean._validation import BOOLEAN, Interval, Options, check_value
+from rmtclean._validation import (
+    BOOLEAN,
+    RANDOM_STATE,
+    Interval,
+    Options,
+    check_sample_weight,
+    check_value,
+)
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import SampleSpectrum
 
@@ -75,10 +82,22 @@ NULL_SPACE_METHODS = ("pooled", "eigh")
 
 
 # -- private cores (no validation) -----------------------------------------
-def _centre(X: np.ndarray, assume_centered: bool) -> tuple[np.ndarray, int]:
-    if assume_centered:
-        return X, X.shape[0]
-    return X - X.mean(axis=0), X.shape[0] - 1
+def _centre(X: np.ndarray, w, assume_centered: bool) -> tuple[np.ndarray, float, int]:
+    """Rows ``Z`` with ``Z'Z / dof`` the (weighted) covariance, dof, rank bound."""
+    lost = 0 if assume_centered else 1
+    if w is None:
+        Xc = X if assume_centered else X - X.mean(axis=0)
+        return Xc, X.shape[0] - lost, X.shape[0] - lost
+    total = float(np.sum(w))
+    Xc = X if assume_centered else X - (w @ X) / total
+    dof = total - lost
+    if not dof > 0:
+        raise ValueError(
+            "A part of a sample split has frequency weights summing to "
+            f"{total!r}, leaving no degrees of freedom; give it more rows "
+            "(train_size) or heavier weights."
+        )
+    return Xc * np.sqrt(w)[:, None], dof, int(np.count_nonzero(w)) - lost
 
 
 def _range_basis(Xc: np.ndarray, rank: int) -> np.ndarray:
@@ -97,7 +116,12 @@ def _range_basis(Xc: np.ndarray, rank: int) -> np.ndarray:
 
 
 def _split_once(
-    X1: np.ndarray, X2: np.ndarray, assume_centered: bool, null_space: str
+    X1: np.ndarray,
+    X2: np.ndarray,
+    assume_centered: bool,
+    null_space: str,
+    w1=None,
+    w2=None,
 ) -> tuple[np.ndarray, np.ndarray, float, float]:
     """Train eigenvectors and the evaluation variances along them.
 
@@ -105,17 +129,17 @@ def _split_once(
     (all N with ``null_space="eigh"``), ``b`` the variances of the
     evaluation part along them, ``c`` the pooled null-space value (0 when
     there is none) and ``trace = tr(S2)``. The split estimate is
-    ``P1 diag(b - c) P1' + c I``.
+    ``P1 diag(b - c) P1' + c I``. ``w1``, ``w2``: frequency weights or None.
     """
     n_features = X1.shape[1]
-    X1c, dof1 = _centre(X1, assume_centered)
-    X2c, dof2 = _centre(X2, assume_centered)
+    X1c, _, rank1 = _centre(X1, w1, assume_centered)
+    X2c, dof2, _ = _centre(X2, w2, assume_centered)
     trace = float(np.sum(X2c * X2c) / dof2)
     if null_space == "eigh":
         _, vecs = np.linalg.eigh(X1c.T @ X1c)
         basis = vecs[:, ::-1]
     else:
-        basis = _range_basis(X1c, min(n_features, dof1))
+        basis = _range_basis(X1c, max(min(n_features, rank1), 1))
     proj = X2c @ basis
     b = np.einsum("ij,ij->j", proj, proj) / dof2
     n_null = n_features - basis.shape[1]
@@ -140,8 +164,13 @@ def _split_indices(
     return out
 
 
+def _part(w, train, evaluation):
+    return (None, None) if w is None else (w[train], w[evaluation])
+
+
 def _split_diagonal(
     X: np.ndarray,
+    w,
     eigenvectors: np.ndarray,
     splits,
     assume_centered: bool,
@@ -153,7 +182,11 @@ def _split_diagonal(
     trace = 0.0
     for train, evaluation in splits:
         basis, b, c, tr = _split_once(
-            X[train], X[evaluation], assume_centered, null_space
+            X[train],
+            X[evaluation],
+            assume_centered,
+            null_space,
+            *_part(w, train, evaluation),
         )
         overlap = eigenvectors.T @ basis
         values += (overlap * overlap) @ (b - c) + c
@@ -169,14 +202,18 @@ def _split_diagonal(
 
 
 def _split_matrix(
-    X: np.ndarray, splits, assume_centered: bool, null_space: str
+    X: np.ndarray, w, splits, assume_centered: bool, null_space: str
 ) -> np.ndarray:
     """Lam's averaged split estimate ``Sigma_{m,M}`` (dense)."""
     n_features = X.shape[1]
     total = np.zeros((n_features, n_features))
     for train, evaluation in splits:
         basis, b, c, _ = _split_once(
-            X[train], X[evaluation], assume_centered, null_space
+            X[train],
+            X[evaluation],
+            assume_centered,
+            null_space,
+            *_part(w, train, evaluation),
         )
         total += (basis * (b - c)) @ basis.T
         total[np.diag_indices(n_features)] += c
@@ -204,6 +241,7 @@ def _train_size_grid(n_rows: int, min_rows: int) -> np.ndarray:
 
 def _select_train_size(
     X: np.ndarray,
+    w,
     n_splits: int,
     shuffle: bool,
     rng,
@@ -223,10 +261,11 @@ def _select_train_size(
             splits = _split_indices(n_rows, int(m), n_splits, False, None)
         gap = np.zeros((n_features, n_features))
         for train, evaluation in splits:
+            parts = _part(w, train, evaluation)
             basis, b, c, _ = _split_once(
-                X[train], X[evaluation], assume_centered, null_space
+                X[train], X[evaluation], assume_centered, null_space, *parts
             )
-            X2c, dof2 = _centre(X[evaluation], assume_centered)
+            X2c, dof2, _ = _centre(X[evaluation], parts[1], assume_centered)
             gap += (basis * (b - c)) @ basis.T - X2c.T @ X2c / dof2
             gap[np.diag_indices(n_features)] += c
         criteria[int(m)] = float(np.sum(gap * gap) / n_splits**2)
@@ -236,7 +275,15 @@ def _select_train_size(
 
 # -- validation --------------------------------------------------------------
 def _resolve(
-    X, train_size, n_splits, shuffle, random_state, assume_centered, null_space, owner
+    X,
+    sample_weight,
+    train_size,
+    n_splits,
+    shuffle,
+    random_state,
+    assume_centered,
+    null_space,
+    owner,
 ):
     check_value(n_splits, [Interval(int, 1, None)], "n_splits", owner)
     check_value(shuffle, [BOOLEAN], "shuffle", owner)
@@ -251,41 +298,52 @@ def _resolve(
     min_rows = 1 if assume_centered else 2
     X = check_data(X, "X", owner, min_samples=2 * min_rows)
     n_rows = X.shape[0]
+    m = _train_size_rows(train_size, n_rows, n_splits, shuffle, assume_centered, owner)
+    check_value(random_state, [RANDOM_STATE], "random_state", owner)
+    if sample_weight is not None:
+        sample_weight = check_sample_weight(sample_weight, n_rows, owner)
+    rng = _generator(random_state) if shuffle else None
+    return X, sample_weight, m, rng
+
+
+def _train_size_rows(
+    train_size, n_rows: int, n_splits: int, shuffle: bool, assume_centered: bool, owner
+):
+    """The train size in rows (or "auto"), checked against the data."""
     if isinstance(train_size, str):
-        m = "auto"
+        return "auto"
+    min_rows = 1 if assume_centered else 2
+    if isinstance(train_size, numbers.Integral):
+        m = int(train_size)
     else:
-        if isinstance(train_size, numbers.Integral):
-            m = int(train_size)
-        else:
-            m = int(round(train_size * n_rows))
-        if not min_rows <= m <= n_rows - min_rows:
-            raise ValueError(
-                f"The 'train_size' parameter of {owner} must leave at least "
-                f"{min_rows} rows in each part of the {n_rows} rows. Got "
-                f"{train_size!r} ({m} rows) instead."
-            )
-        if not shuffle and n_splits > m + 1:
-            raise ValueError(
-                f"The 'n_splits' parameter of {owner} can be at most "
-                f"train_size + 1 = {m + 1} distinct time-ordered splits. Got "
-                f"{n_splits} instead."
-            )
-    if random_state is not None and not isinstance(
-        random_state, (numbers.Integral, np.random.Generator)
-    ):
-        raise TypeError(
-            f"The 'random_state' parameter of {owner} must be None, an int or a "
-            f"numpy Generator. Got {random_state!r} instead."
+        m = int(round(train_size * n_rows))
+    if not min_rows <= m <= n_rows - min_rows:
+        raise ValueError(
+            f"The 'train_size' parameter of {owner} must leave at least "
+            f"{min_rows} rows in each part of the {n_rows} rows. Got "
+            f"{train_size!r} ({m} rows) instead."
         )
-    rng = np.random.default_rng(random_state) if shuffle else None
-    return X, m, rng
+    if not shuffle and n_splits > m + 1:
+        raise ValueError(
+            f"The 'n_splits' parameter of {owner} can be at most "
+            f"train_size + 1 = {m + 1} distinct time-ordered splits. Got "
+            f"{n_splits} instead."
+        )
+    return m
 
 
-def _prepare(X, m, n_splits, shuffle, rng, assume_centered, null_space):
+def _generator(random_state) -> np.random.Generator:
+    """A Generator from None, an int, a Generator or a legacy RandomState."""
+    if isinstance(random_state, np.random.RandomState):
+        return np.random.default_rng(random_state.randint(0, 2**31 - 1))
+    return np.random.default_rng(random_state)
+
+
+def _prepare(X, w, m, n_splits, shuffle, rng, assume_centered, null_space):
     details = {"n_splits": n_splits, "shuffle": shuffle, "null_space": null_space}
     if m == "auto":
         m, criteria = _select_train_size(
-            X, n_splits, shuffle, rng, assume_centered, null_space
+            X, w, n_splits, shuffle, rng, assume_centered, null_space
         )
         details["train_size_criterion"] = criteria
         if not shuffle and n_splits > m + 1:
@@ -309,8 +367,12 @@ _PARAMS_DOC = """
     shuffle : bool, default=True
         Random splits; False gives time-ordered contiguous splits (see the
         module notes).
-    random_state : None, int or numpy.random.Generator, default=None
+    random_state : None, int, numpy Generator or RandomState, default=None
         Seed of the random splits (unused when ``shuffle=False``).
+    sample_weight : array-like of shape (n_samples,), default=None
+        Non-negative frequency weights: each part's covariance is the
+        weighted one with divisor (sum of its weights - 1). Splits are drawn
+        over rows, so a row of weight 2 is not the same as a repeated row.
     assume_centered : bool, default=False
         If False, each part is demeaned with its own mean and its covariance
         uses divisor (rows - 1); if True, neither is done.
@@ -327,6 +389,7 @@ def split_shrink(
     random_state=None,
     assume_centered: bool = False,
     null_space: str = "pooled",
+    sample_weight=None,
     eigenvectors=None,
 ) -> CleanedEigenvalues:
     r"""Split-sample eigenvalues for the full-sample eigenvectors.
@@ -381,21 +444,21 @@ def split_shrink(
     True
     """
     owner = "split_shrink"
-    X, m, rng = _resolve(
-        X, train_size, n_splits, shuffle, random_state, assume_centered,
-        null_space, owner,
+    X, w, m, rng = _resolve(
+        X, sample_weight, train_size, n_splits, shuffle, random_state,
+        assume_centered, null_space, owner,
     )  # fmt: skip
     if eigenvectors is None:
         eigenvectors = SampleSpectrum.from_data(
-            X, assume_centered=assume_centered
+            X, assume_centered=assume_centered, sample_weight=w
         ).eigenvectors
     else:
         eigenvectors = _check_eigenvectors(eigenvectors, X.shape[1], owner)
     splits, details = _prepare(
-        X, m, n_splits, shuffle, rng, assume_centered, null_space
+        X, w, m, n_splits, shuffle, rng, assume_centered, null_space
     )
     values, null_value = _split_diagonal(
-        X, eigenvectors, splits, assume_centered, null_space
+        X, w, eigenvectors, splits, assume_centered, null_space
     )
     return CleanedEigenvalues(values, null_value, None, details)
 
@@ -409,6 +472,7 @@ def split_covariance(
     random_state=None,
     assume_centered: bool = False,
     null_space: str = "pooled",
+    sample_weight=None,
 ) -> np.ndarray:
     r"""Lam's (2016) averaged split-sample covariance :math:`\Sigma_{{m,M}}`.
 
@@ -454,12 +518,12 @@ def split_covariance(
     True
     """
     owner = "split_covariance"
-    X, m, rng = _resolve(
-        X, train_size, n_splits, shuffle, random_state, assume_centered,
-        null_space, owner,
+    X, w, m, rng = _resolve(
+        X, sample_weight, train_size, n_splits, shuffle, random_state,
+        assume_centered, null_space, owner,
     )  # fmt: skip
-    splits, _ = _prepare(X, m, n_splits, shuffle, rng, assume_centered, null_space)
-    return _split_matrix(X, splits, assume_centered, null_space)
+    splits, _ = _prepare(X, w, m, n_splits, shuffle, rng, assume_centered, null_space)
+    return _split_matrix(X, w, splits, assume_centered, null_space)
 
 
 def _check_eigenvectors(eigenvectors, n_features: int, owner: str) -> np.ndarray:
