@@ -507,7 +507,8 @@ def minimum_variance_scorer(estimator, X_test, y=None) -> float:
     ----------
     estimator : fitted covariance estimator
         Anything with a ``covariance_`` attribute (and optionally
-        ``location_``).
+        ``location_``); an rmtclean estimator fitted with
+        ``store_covariance=False`` is served by its ``spectrum_``.
     X_test : array-like of shape (n_samples, n_features)
         Held-out returns.
     y : None
@@ -540,15 +541,20 @@ def minimum_variance_scorer(estimator, X_test, y=None) -> float:
     True
     """
     func = "minimum_variance_scorer"
-    if not hasattr(estimator, "covariance_"):
+    covariance = getattr(estimator, "covariance_", None)
+    spectrum = getattr(estimator, "spectrum_", None)
+    if covariance is None and not hasattr(spectrum, "solve"):
         raise TypeError(
             f"The 'estimator' argument of {func} must be a fitted covariance "
-            "estimator with a 'covariance_' attribute. Got "
-            f"{type(estimator).__name__} instead."
+            "estimator with a 'covariance_' attribute (or an rmtclean "
+            f"'spectrum_'). Got {type(estimator).__name__} instead."
         )
-    covariance = _check_square(estimator.covariance_, "covariance_", func)
+    if covariance is not None:
+        covariance = _check_square(covariance, "covariance_", func)
+        n_features = covariance.shape[0]
+    else:
+        n_features = spectrum.n_features
     X_test = check_data(X_test, "X_test", func, min_samples=1)
-    n_features = covariance.shape[0]
     if X_test.shape[1] != n_features:
         raise ValueError(
             f"The 'X_test' argument of {func} must have {n_features} features "
@@ -556,7 +562,11 @@ def minimum_variance_scorer(estimator, X_test, y=None) -> float:
         )
     location = getattr(estimator, "location_", None)
     centred = X_test if location is None else X_test - np.asarray(location)
-    weights = scipy.linalg.pinvh(covariance) @ np.ones(n_features)
+    ones = np.ones(n_features)
+    if covariance is not None:
+        weights = scipy.linalg.pinvh(covariance) @ ones
+    else:  # rmtclean fit with store_covariance=False: no N x N matrix
+        weights = np.asarray(spectrum.solve(ones[:, None])).ravel()
     total = np.sum(weights)
     if not abs(total) > 0:
         raise ValueError(

@@ -313,6 +313,19 @@ def test_minimum_variance_scorer_in_model_selection(rng):
     assert np.isfinite(search.best_score_)
 
 
+def test_minimum_variance_scorer_from_spectrum(rng):
+    # store_covariance=False: the scorer uses spectrum_.solve, same result.
+    from rmtclean import SplitShrink
+
+    X = rng.standard_normal((80, 6))
+    dense = SplitShrink(random_state=0).fit(X[:60])
+    lean = SplitShrink(random_state=0, store_covariance=False).fit(X[:60])
+    assert lean.covariance_ is None
+    assert minimum_variance_scorer(lean, X[60:]) == pytest.approx(
+        minimum_variance_scorer(dense, X[60:]), rel=1e-10
+    )
+
+
 def test_minimum_variance_scorer_errors():
     with pytest.raises(TypeError, match="'covariance_' attribute"):
         minimum_variance_scorer(object(), np.zeros((2, 2)))
