@@ -1,0 +1,395 @@
+"""Reading data tables and writing results safely.
+
+Tables are CSV or Parquet files with rows = observations and columns =
+variables, optionally with an index column (dates, sample names). Results
+are written atomically: to a temporary file in the target's folder, then
+moved over the target with :func:`os.replace`, so a failure never leaves a
+partial file behind.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import tempfile
+from pathlib import Path
+
+import numpy as np
+
+__all__ = [
+    "PRICE_RATIO_THRESHOLD",
+    "TABLE_SUFFIXES",
+    "atomic_path",
+    "looks_like_prices",
+    "numeric_matrix",
+    "prices_to_returns",
+    "read_table",
+    "successive_difference_ratio",
+    "write_table",
+]
+
+#: File suffixes understood by :func:`read_table` and :func:`write_table`.
+TABLE_SUFFIXES = {
+    ".csv": "csv",
+    ".txt": "csv",
+    ".tsv": "tsv",
+    ".parquet": "parquet",
+    ".pq": "parquet",
+    ".npy": "npy",
+}
+
+#: Median successive-difference ratio below which positive data read as prices.
+PRICE_RATIO_THRESHOLD = 0.2
+
+_MIN_ROWS_FOR_PRICE_CHECK = 10
+
+
+def _format(path: Path, what: str) -> str:
+    kind = TABLE_SUFFIXES.get(path.suffix.lower())
+    if kind is None:
+        known = ", ".join(sorted(TABLE_SUFFIXES))
+        raise ValueError(
+            f"Cannot {what} {str(path)!r}: unknown file type {path.suffix!r} "
+            f"(known: {known})."
+        )
+    return kind
+
+
+def _is_label_column(series) -> bool:
+    import pandas as pd
+
+    if pd.api.types.is_numeric_dtype(series) and not pd.api.types.is_bool_dtype(series):
+        return False
+    return bool(series.notna().all() and series.is_unique)
+
+
+def read_table(path, *, index_col="auto"):
+    """Read a CSV, TSV, Parquet or ``.npy`` table into a DataFrame.
+
+    Parameters
+    ----------
+    path : str or Path
+        The file; its suffix (``.csv``, ``.txt``, ``.tsv``, ``.parquet``,
+        ``.pq``, ``.npy``) chooses the reader.
+    index_col : "auto", int, str or None, default="auto"
+        The column holding the row labels. ``"auto"`` takes the first column
+        when it is not numeric and has unique, non-missing values (dates,
+        sample names); ``None`` reads no index.
+
+    Returns
+    -------
+    pandas.DataFrame
+        The columns as read; no check that they are numeric (see
+        :func:`numeric_matrix`). ``.npy`` files get columns ``x0, x1, ...``.
+
+    Raises
+    ------
+    ValueError
+        For an empty file or an unknown suffix.
+    OSError
+        When the file cannot be read.
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> from rmtclean.io import read_table
+    >>> path = pathlib.Path(tempfile.mkdtemp()) / "r.csv"
+    >>> _ = path.write_text("date,a,b\\n2024-01-02,0.1,0.2\\n2024-01-03,-0.1,0.0\\n")
+    >>> frame = read_table(path)
+    >>> frame.index.name, list(frame.columns)
+    ('date', ['a', 'b'])
+    """
+    import pandas as pd
+
+    path = Path(path)
+    kind = _format(path, "read")
+    if not path.is_file():
+        raise OSError(f"No such file: {str(path)!r}.")
+    if path.stat().st_size == 0:
+        raise ValueError(f"The file {str(path)!r} is empty.")
+    if kind == "npy":
+        arr = np.load(path, allow_pickle=False)
+        if arr.ndim != 2:
+            raise ValueError(
+                f"The array in {str(path)!r} must be 2-D (rows = observations). "
+                f"Got shape {arr.shape} instead."
+            )
+        return pd.DataFrame(arr, columns=[f"x{j}" for j in range(arr.shape[1])])
+    try:
+        if kind == "parquet":
+            frame = pd.read_parquet(path)
+        else:
+            frame = pd.read_csv(path, sep="\t" if kind == "tsv" else ",")
+    except pd.errors.EmptyDataError:
+        raise ValueError(f"The file {str(path)!r} has no data.") from None
+    except ImportError as exc:
+        raise OSError(f"Cannot read {str(path)!r}: {exc}") from exc
+    if frame.shape[1] == 0:
+        raise ValueError(f"The file {str(path)!r} has no columns.")
+    if index_col == "auto":
+        if frame.shape[1] > 1 and _is_label_column(frame.iloc[:, 0]):
+            frame = frame.set_index(frame.columns[0])
+    elif index_col is not None:
+        name = frame.columns[index_col] if isinstance(index_col, int) else index_col
+        if name not in frame.columns:
+            raise ValueError(
+                f"The index column {index_col!r} is not in {str(path)!r}; "
+                f"columns are {list(frame.columns)[:5]}..."
+            )
+        frame = frame.set_index(name)
+    if frame.shape[0] == 0:
+        raise ValueError(f"The file {str(path)!r} has a header but no rows.")
+    return frame
+
+
+def numeric_matrix(frame, *, min_rows: int = 2, source: str = "the data"):
+    """Check that every column of ``frame`` is numeric; return it as float64.
+
+    Parameters
+    ----------
+    frame : pandas.DataFrame
+    min_rows : int, default=2
+        Fewest rows accepted.
+    source : str
+        Name of the input, for messages.
+
+    Returns
+    -------
+    pandas.DataFrame
+        The same labels, float64 values; NaN marks a missing entry.
+
+    Raises
+    ------
+    ValueError
+        Naming the first non-numeric columns, or the number of rows when
+        there are fewer than ``min_rows``.
+
+    Examples
+    --------
+    >>> import pandas as pd
+    >>> from rmtclean.io import numeric_matrix
+    >>> numeric_matrix(pd.DataFrame({"a": [1, 2], "b": [0.5, 1.5]})).dtypes.tolist()
+    [dtype('float64'), dtype('float64')]
+    """
+    import pandas as pd
+
+    bad = [
+        str(c)
+        for c in frame.columns
+        if not pd.api.types.is_numeric_dtype(frame[c])
+        or pd.api.types.is_bool_dtype(frame[c])
+    ]
+    if bad:
+        shown = ", ".join(repr(c) for c in bad[:3]) + (" ..." if len(bad) > 3 else "")
+        raise ValueError(
+            f"{source} has {len(bad)} non-numeric column(s): {shown}. Every "
+            "column must be a numeric variable (an index column of labels is "
+            "detected when it comes first)."
+        )
+    if frame.shape[0] < min_rows:
+        raise ValueError(
+            f"{source} has {frame.shape[0]} row(s); at least {min_rows} "
+            "observations are needed."
+        )
+    return frame.astype(np.float64)
+
+
+def successive_difference_ratio(X) -> np.ndarray:
+    r"""Half von Neumann's ratio per column: near 1 for returns, near 0 for prices.
+
+    Parameters
+    ----------
+    X : array-like of shape (n_samples, n_features)
+        Rows in time order; NaN entries are ignored.
+
+    Returns
+    -------
+    ratio : ndarray of shape (n_features,)
+        :math:`\frac{1}{2}\,\overline{(x_{t+1} - x_t)^2} / \widehat{\mathrm{var}}(x)`.
+
+    Notes
+    -----
+    Von Neumann's ratio of the mean square successive difference to the
+    variance is about 2 for independent values [1]_; for a random walk of
+    length T it is of order 1/T, since the level's variance grows with T
+    while the steps' does not.
+
+    References
+    ----------
+    .. [1] J. von Neumann, "Distribution of the ratio of the mean square
+       successive difference to the variance", Ann. Math. Statist. 12(4),
+       367-395, 1941.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from rmtclean.io import successive_difference_ratio
+    >>> steps = np.random.default_rng(0).standard_normal((500, 1))
+    >>> round(float(successive_difference_ratio(steps)[0]), 1)
+    1.0
+    >>> bool(successive_difference_ratio(np.cumsum(steps, axis=0))[0] < 0.05)
+    True
+    """
+    X = np.asarray(X, dtype=np.float64)
+    diff = np.diff(X, axis=0)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        msd = np.nanmean(diff * diff, axis=0)
+        var = np.nanvar(X, axis=0)
+        return 0.5 * msd / var
+
+
+def looks_like_prices(X) -> bool:
+    """Whether a table looks like price (or index) levels rather than returns.
+
+    Parameters
+    ----------
+    X : array-like of shape (n_samples, n_features)
+        Rows in time order.
+
+    Returns
+    -------
+    bool
+        True when every observed value is positive, there are at least 10
+        rows, and the median over columns of
+        :func:`successive_difference_ratio` is below
+        :data:`PRICE_RATIO_THRESHOLD` (0.2): the columns move in small steps
+        relative to their range, as levels do. Returns, including gross
+        returns ``1 + r``, give about 1.
+
+    Notes
+    -----
+    A heuristic (common practice), not a test with a controlled error: a
+    smooth positive series that is not a price (a slowly drifting
+    measurement) is flagged too, and prices over very few rows may pass.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from rmtclean.io import looks_like_prices
+    >>> r = 0.01 * np.random.default_rng(0).standard_normal((250, 5))
+    >>> looks_like_prices(r), looks_like_prices(100 * np.exp(np.cumsum(r, axis=0)))
+    (False, True)
+    """
+    X = np.asarray(X, dtype=np.float64)
+    if X.ndim != 2 or X.shape[0] < _MIN_ROWS_FOR_PRICE_CHECK:
+        return False
+    observed = X[np.isfinite(X)]
+    if observed.size == 0 or np.any(observed <= 0):
+        return False
+    ratio = successive_difference_ratio(X)
+    ratio = ratio[np.isfinite(ratio)]
+    return bool(ratio.size and np.median(ratio) < PRICE_RATIO_THRESHOLD)
+
+
+def prices_to_returns(prices):
+    """Log returns ``log(p_t / p_{t-1})`` of a price table (first row dropped).
+
+    Parameters
+    ----------
+    prices : pandas.DataFrame
+        Positive prices, rows in time order.
+
+    Returns
+    -------
+    pandas.DataFrame
+        One row fewer, same columns and index (less its first label).
+
+    Raises
+    ------
+    ValueError
+        If a price is zero or negative.
+
+    Examples
+    --------
+    >>> import numpy as np, pandas as pd
+    >>> from rmtclean.io import prices_to_returns
+    >>> p = pd.DataFrame({"a": [100.0, 110.0, 99.0]})
+    >>> np.round(prices_to_returns(p)["a"].to_numpy(), 6).tolist()
+    [0.09531, -0.105361]
+    """
+    values = prices.to_numpy(dtype=np.float64)
+    finite = values[np.isfinite(values)]
+    if np.any(finite <= 0):
+        raise ValueError(
+            "Prices must be positive to convert to log returns; got a minimum "
+            f"of {float(finite.min())!r}."
+        )
+    logs = np.log(values)
+    out = prices.iloc[1:].copy().astype(np.float64)
+    out.iloc[:, :] = np.diff(logs, axis=0)
+    return out
+
+
+@contextlib.contextmanager
+def atomic_path(path):
+    """Yield a temporary path beside ``path``; on success move it over ``path``.
+
+    The temporary file is in the same folder (so :func:`os.replace` is an
+    atomic rename on POSIX and Windows) and is removed if the block raises.
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> from rmtclean.io import atomic_path
+    >>> target = pathlib.Path(tempfile.mkdtemp()) / "out.txt"
+    >>> with atomic_path(target) as tmp:
+    ...     _ = tmp.write_text("done")
+    >>> target.read_text()
+    'done'
+    """
+    path = Path(path)
+    folder = path.parent if str(path.parent) else Path(".")
+    if not folder.is_dir():
+        raise OSError(f"The folder of {str(path)!r} does not exist.")
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".tmp", dir=folder)
+    os.close(fd)
+    tmp = Path(tmp)
+    try:
+        yield tmp
+        os.replace(tmp, path)
+    except BaseException:
+        with contextlib.suppress(OSError):
+            tmp.unlink()
+        raise
+
+
+def write_table(frame, path) -> Path:
+    """Write a labelled matrix atomically, in the format of ``path``'s suffix.
+
+    Parameters
+    ----------
+    frame : pandas.DataFrame
+        Written with its index as the first column (CSV) or as the index
+        (Parquet); ``.npy`` keeps the values only.
+    path : str or Path
+        ``.csv``, ``.txt``, ``.tsv``, ``.parquet``, ``.pq`` or ``.npy``.
+
+    Returns
+    -------
+    Path
+
+    Examples
+    --------
+    >>> import pathlib, tempfile
+    >>> import pandas as pd
+    >>> from rmtclean.io import read_table, write_table
+    >>> names = ["a", "b"]
+    >>> frame = pd.DataFrame([[1.0, 0.5], [0.5, 2.0]], index=names, columns=names)
+    >>> path = write_table(frame, pathlib.Path(tempfile.mkdtemp()) / "cov.csv")
+    >>> read_table(path).equals(frame)
+    True
+    """
+    path = Path(path)
+    kind = _format(path, "write")
+    with atomic_path(path) as tmp:
+        if kind == "npy":
+            with open(tmp, "wb") as handle:
+                np.save(handle, frame.to_numpy(dtype=np.float64), allow_pickle=False)
+        elif kind == "parquet":
+            try:
+                frame.to_parquet(tmp)
+            except ImportError as exc:
+                raise OSError(f"Cannot write {str(path)!r}: {exc}") from exc
+        else:
+            frame.to_csv(tmp, sep="\t" if kind == "tsv" else ",", float_format="%.17g")
+    return path
