@@ -195,6 +195,29 @@ def test_unbiased_for_the_train_oracle():
     assert err.mean() / (err.std(ddof=1) / np.sqrt(reps)) > 5
 
 
+def test_time_ordered_split_resists_serial_correlation():
+    # [computed] With AR(1)-in-time rows (phi = 0.9), random splits put
+    # neighbouring, correlated rows in both parts, so p' S2 p is inflated
+    # along the train eigenvectors; contiguous parts share one boundary
+    # only. Measured over 200 seeds: mean bias of the top 3 split values
+    # +13.4 (se 0.26) shuffled, -1.36 (se 0.14) time-ordered (population
+    # level 10).
+    design = make_design("mixture", 30, rotate=True, random_state=0)
+    sigma = design.covariance
+    bias = {True: [], False: []}
+    for seed in range(100):
+        X = design.sample(120, ar_coefficient=0.9, random_state=seed)
+        rng = np.random.default_rng(seed)
+        for shuffle in (True, False):
+            idx = rng.permutation(120) if shuffle else np.arange(120)
+            basis, b, _, _ = _split_once(X[idx[:60]], X[idx[60:]], False, "pooled")
+            oracle = np.einsum("ij,ij->j", basis, sigma @ basis)
+            bias[shuffle].append(np.mean((b - oracle)[:3]))
+    shuffled, ordered = np.array(bias[True]), np.array(bias[False])
+    assert shuffled.mean() > 5 * shuffled.std(ddof=1) / 10
+    assert abs(ordered.mean()) < 0.2 * shuffled.mean()
+
+
 def test_beats_sample_covariance_on_mixture_design():
     # [computed] measured PRIAL (Frobenius) of split_shrink at its defaults on
     # the rotated 1/3/10 mixture (REFERENCES item 6 design), N = 100,
