@@ -8,6 +8,11 @@ from rmtclean.rules._linear import (
     shrinkage_intensity,
     shrinkage_target,
 )
+from rmtclean.rules._spiked import (
+    SPIKE_SHRINKERS,
+    optimal_hard_threshold,
+    spike_shrink,
+)
 from rmtclean.rules._split import NULL_SPACE_METHODS, split_covariance, split_shrink
 from rmtclean.rules._types import CleanedEigenvalues
 
@@ -23,5 +28,8 @@ __all__ = sorted(
         "NULL_SPACE_METHODS",
         "split_covariance",
         "split_shrink",
+        "SPIKE_SHRINKERS",
+        "optimal_hard_threshold",
+        "spike_shrink",
     ]
 )
