@@ -1,6 +1,11 @@
 """rmtclean: clean large sample covariance matrices with random-matrix theory."""
 
-from rmtclean.estimators import LinearShrink, SpectralCovariance, SplitShrink
+from rmtclean.estimators import (
+    LinearShrink,
+    SpectralCovariance,
+    SpikeShrink,
+    SplitShrink,
+)
 from rmtclean.rules import CleanedEigenvalues
 from rmtclean.spectrum import CleanedSpectrum, SampleSpectrum, sample_spectrum
 
@@ -13,6 +18,7 @@ __all__ = sorted(
         "LinearShrink",
         "SampleSpectrum",
         "SpectralCovariance",
+        "SpikeShrink",
         "SplitShrink",
         "sample_spectrum",
     ]

@@ -2,12 +2,14 @@
 
 from rmtclean.estimators._base import SpectralCovariance
 from rmtclean.estimators._linear import LinearShrink
+from rmtclean.estimators._spiked import SpikeShrink
 from rmtclean.estimators._split import SplitShrink
 
 __all__ = sorted(
     [
         "LinearShrink",
         "SpectralCovariance",
+        "SpikeShrink",
         "SplitShrink",
     ]
 )

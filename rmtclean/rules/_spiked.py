@@ -319,7 +319,11 @@ def spike_shrink(
     :func:`rmtclean.spectrum.fit_bulk`); this removes the upward bias of
     order ``k / N`` that the spikes give the plain median. The estimate
     assumes the eigenvalues given are the whole nonzero spectrum
-    (``n_components = min(n_features, n_samples)``).
+    (``n_components = min(n_features, n_samples)``); eigenvalues at
+    round-off level (below ``max(N, n_components) * eps`` times the largest,
+    as in :func:`numpy.linalg.matrix_rank`) count as rank deficiency and are
+    left out of it, so repeating rows and giving them integer weights yield
+    the same estimate.
 
     References
     ----------
@@ -352,12 +356,10 @@ def spike_shrink(
             f"{sorted(SPIKE_SHRINKERS)}. Got {loss!r} instead."
         )
     if noise_variance is None:
-        s2 = _median_noise_variance(values, n_samples, n_features)
-        if not s2 > 0:
-            raise ValueError(
-                f"{name} cannot estimate the noise variance: the median of "
-                f"'eigenvalues' is {np.median(values)!r}. Pass noise_variance."
-            )
+        # Round-off zeros (numpy's matrix_rank tolerance) are rank deficiency,
+        # not noise: leave them out of the median.
+        tol = values[0] * max(n_features, values.size) * np.finfo(np.float64).eps
+        s2 = _median_noise_variance(values[values > tol], n_samples, n_features)
     else:
         s2 = _check_positive_scalar(
             noise_variance,
