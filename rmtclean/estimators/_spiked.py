@@ -30,11 +30,12 @@ _DOC = r"""Optimal eigenvalue shrinkage in the spiked covariance model.
         ``"operator-whitened"``, ``"nuclear"``, ``"nuclear-precision"``,
         ``"nuclear-relative"``, ``"divergence"``, ``"frechet"``,
         ``"affinity"``.
-    noise_variance : float or None, default=None
+    noise_variance : float, "median" or None, default=None
         The noise variance ``s2`` (of the correlation matrix when
-        ``standardize``). ``None`` estimates it by median matching with the
-        separated eigenvalues set aside (see
-        :func:`rmtclean.rules.spike_shrink`).
+        ``standardize``), or how to estimate it: ``None`` fits the
+        Marchenko-Pastur law to the bulk (:func:`rmtclean.spectrum.fit_bulk`,
+        the separated eigenvalues set aside), ``"median"`` uses median
+        matching alone (see :func:`rmtclean.rules.spike_shrink`).
 %(common)s
     Attributes
     ----------
@@ -107,7 +108,11 @@ class SpikeShrink(SpectralCovariance):
 
     _parameter_specs: dict = {
         "loss": [Options(SPIKE_SHRINKERS)],
-        "noise_variance": [None, Interval(float, 0.0, None, closed="neither")],
+        "noise_variance": [
+            None,
+            Options({"median"}),
+            Interval(float, 0.0, None, closed="neither"),
+        ],
     }
 
     def __init__(

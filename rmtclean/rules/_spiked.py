@@ -78,10 +78,10 @@ from functools import lru_cache
 from types import MappingProxyType
 
 import numpy as np
-from scipy.optimize import brentq
 
+from rmtclean.laws import MarchenkoPastur
 from rmtclean.rules._types import CleanedEigenvalues
-from rmtclean.spectrum._bulk import _check_eigenvalues, _check_sizes
+from rmtclean.spectrum._bulk import _check_eigenvalues, _check_sizes, fit_bulk
 from rmtclean.spectrum._spikes import _check_positive_scalar, _invert_spikes
 
 __all__ = ["SPIKE_SHRINKERS", "optimal_hard_threshold", "spike_shrink"]
@@ -167,29 +167,10 @@ SPIKE_SHRINKERS: MappingProxyType[str, Callable] = MappingProxyType(
 )
 
 
-def _mp_continuous_cdf(theta: float, ratio: float) -> float:
-    """Mass of the continuous Marchenko-Pastur part below x(theta), s2 = 1.
-
-    With ``x = 1 + q - 2 sqrt(q) cos(theta)``, theta in [0, pi], the density
-    ``sqrt((b - x)(x - a)) / (2 pi q x)`` integrates in closed form to the
-    expression below; at theta = pi it gives 1 for q <= 1 and 1/q for q > 1.
-    """
-    root = np.sqrt(ratio)
-    angle = np.arctan2(
-        (1.0 + root) * np.sin(theta / 2.0), abs(1.0 - root) * np.cos(theta / 2.0)
-    )
-    return (2.0 / np.pi) * (
-        np.sin(theta) / (2.0 * root)
-        + (1.0 + ratio) * theta / (4.0 * ratio)
-        - abs(1.0 - ratio) / (2.0 * ratio) * angle
-    )
-
-
 @lru_cache(maxsize=256)
 def _marchenko_pastur_median(ratio: float) -> float:
     """Median of the Marchenko-Pastur law with ratio <= 1 and s2 = 1."""
-    theta = brentq(lambda t: _mp_continuous_cdf(t, ratio) - 0.5, 0.0, np.pi, xtol=1e-15)
-    return float(1.0 + ratio - 2.0 * np.sqrt(ratio) * np.cos(theta))
+    return float(MarchenkoPastur(ratio).ppf(0.5))
 
 
 def _nonzero_median_factor(n_samples: float, n_features: int) -> float:
@@ -208,8 +189,8 @@ def _nonzero_median_factor(n_samples: float, n_features: int) -> float:
 
 def _median_noise_variance(
     eigenvalues: np.ndarray, n_samples: float, n_features: int
-) -> float:
-    """Noise variance by median matching, with the separated eigenvalues set aside.
+) -> tuple[float, int]:
+    """Noise variance by median matching, and the number of eigenvalues set aside.
 
     A first estimate matches the median of all eigenvalues (descending) to
     the noise median; the ``k`` eigenvalues above the bulk edge it implies
@@ -222,12 +203,28 @@ def _median_noise_variance(
     )
     edge = first * (1.0 + np.sqrt(n_features / n_samples)) ** 2
     n_signal = int(np.count_nonzero(eigenvalues > edge))
-    n_signal = min(n_signal, eigenvalues.size - 2, int(np.ceil(n_samples)) - 2)
+    # fit_bulk's limits: two bulk eigenvalues left, n_signal below n_samples.
+    n_signal = min(n_signal, eigenvalues.size - 2, int(np.ceil(n_samples)) - 1)
     if n_signal <= 0:
-        return first
+        return first, 0
     dof = n_samples - n_signal
     factor = _nonzero_median_factor(dof, n_features - n_signal) * dof / n_samples
-    return float(np.median(eigenvalues[n_signal:])) / factor
+    return float(np.median(eigenvalues[n_signal:])) / factor, n_signal
+
+
+def _estimate_noise_variance(
+    eigenvalues: np.ndarray, n_samples: float, n_features: int, method: str
+) -> float:
+    """Noise variance of a validated descending spectrum by ``method``."""
+    # Round-off zeros (numpy's matrix_rank tolerance) are rank deficiency,
+    # not noise: leave them out.
+    tol = eigenvalues[0] * max(n_features, eigenvalues.size) * np.finfo(float).eps
+    positive = eigenvalues[eigenvalues > tol]
+    median, n_signal = _median_noise_variance(positive, n_samples, n_features)
+    if method == "median" or positive.size < 3:
+        return median
+    fit = fit_bulk(positive, n_samples, n_features, n_signal=n_signal)
+    return fit.noise_variance
 
 
 def _spike_shrink(
@@ -274,9 +271,11 @@ def spike_shrink(
         Loss the shrinker is optimal for; one of the keys of
         :data:`SPIKE_SHRINKERS` (see the module documentation for the
         table of losses and formulas).
-    noise_variance : float or None, default=None
-        Noise variance ``s2``. ``None`` estimates it by matching the median
-        of the eigenvalues to the median of the noise spectrum (see Notes).
+    noise_variance : float, "median" or None, default=None
+        Noise variance ``s2``, or how to estimate it (see Notes): ``None``
+        fits the Marchenko-Pastur law to the bulk with
+        :func:`rmtclean.spectrum.fit_bulk`; ``"median"`` uses median
+        matching alone.
 
     Returns
     -------
@@ -284,7 +283,8 @@ def spike_shrink(
         ``values`` in the input order; ``null_value`` is ``s2`` when
         ``n_components < n_features``, else ``None``; ``n_signal`` is the
         number of eigenvalues above the bulk edge. ``details`` holds
-        ``noise_variance``, ``noise_variance_estimated`` (bool), ``loss``,
+        ``noise_variance``, ``noise_variance_method`` (``"given"``,
+        ``"bulk-fit"`` or ``"median"``), ``loss``,
         ``bulk_edge`` and ``inversion``, the
         :class:`~rmtclean.spectrum._spikes.SpikeInversion` used.
 
@@ -308,8 +308,8 @@ def spike_shrink(
     ``n_features - n_samples`` null directions carry no information and
     get ``s2``.
 
-    The noise variance, when not given, is estimated by median matching
-    (Gavish & Donoho [2]_): ``s2 = median(eigenvalues) / mu``, where ``mu`` is
+    Estimating the noise variance starts with median matching (Gavish &
+    Donoho [2]_): ``s2 = median(eigenvalues) / mu``, where ``mu`` is
     the median of the nonzero eigenvalues of unit-variance noise (the
     Marchenko-Pastur median for ratio ``q <= 1``; ``q`` times the median for
     ratio ``1/q`` when ``q > 1``). The ``k`` eigenvalues above the edge this
@@ -317,13 +317,18 @@ def spike_shrink(
     is matched to noise of dimension ``N - k`` with ``n - k`` degrees of
     freedom, scaled by ``(n - k)/n`` (the bulk model of
     :func:`rmtclean.spectrum.fit_bulk`); this removes the upward bias of
-    order ``k / N`` that the spikes give the plain median. The estimate
-    assumes the eigenvalues given are the whole nonzero spectrum
-    (``n_components = min(n_features, n_samples)``); eigenvalues at
-    round-off level (below ``max(N, n_components) * eps`` times the largest,
-    as in :func:`numpy.linalg.matrix_rank`) count as rank deficiency and are
-    left out of it, so repeating rows and giving them integer weights yield
-    the same estimate.
+    order ``k / N`` that the spikes give the plain median. That is the
+    ``"median"`` estimate. The default then sets the same ``k`` eigenvalues
+    aside and fits the bulk law to the others by minimum Cramer-von Mises
+    distance (:func:`rmtclean.spectrum.fit_bulk`); on Gaussian noise its
+    standard error is about half that of the median (spectra of fewer than
+    three eigenvalues keep the median estimate). Both assume the eigenvalues
+    given are the whole nonzero spectrum (``n_components = min(n_features,
+    n_samples)``); eigenvalues at round-off level (below
+    ``max(N, n_components) * eps`` times the largest, as in
+    :func:`numpy.linalg.matrix_rank`) count as rank deficiency and are left
+    out, so repeating rows and giving them integer weights yield the same
+    estimate.
 
     References
     ----------
@@ -355,17 +360,18 @@ def spike_shrink(
             f"The 'loss' parameter of {name} must be one of "
             f"{sorted(SPIKE_SHRINKERS)}. Got {loss!r} instead."
         )
-    if noise_variance is None:
-        # Round-off zeros (numpy's matrix_rank tolerance) are rank deficiency,
-        # not noise: leave them out of the median.
-        tol = values[0] * max(n_features, values.size) * np.finfo(np.float64).eps
-        s2 = _median_noise_variance(values[values > tol], n_samples, n_features)
+    if noise_variance is None or (
+        isinstance(noise_variance, str) and noise_variance == "median"
+    ):
+        method = "bulk-fit" if noise_variance is None else "median"
+        s2 = _estimate_noise_variance(values, n_samples, n_features, method)
     else:
+        method = "given"
         s2 = _check_positive_scalar(
             noise_variance,
             "noise_variance",
             name,
-            expected="None or a positive finite real number",
+            expected="None, 'median' or a positive finite real number",
         )
     cleaned, n_signal, inversion = _spike_shrink(
         values, n_samples, n_features, SPIKE_SHRINKERS[loss], s2
@@ -376,7 +382,7 @@ def spike_shrink(
         n_signal=n_signal,
         details={
             "noise_variance": s2,
-            "noise_variance_estimated": noise_variance is None,
+            "noise_variance_method": method,
             "loss": loss,
             "bulk_edge": inversion.bulk_edge,
             "inversion": inversion,
