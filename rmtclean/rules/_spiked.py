@@ -82,7 +82,11 @@ import numpy as np
 from rmtclean.laws import MarchenkoPastur
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum._bulk import _check_eigenvalues, _check_sizes, fit_bulk
-from rmtclean.spectrum._spikes import _check_positive_scalar, _invert_spikes
+from rmtclean.spectrum._spikes import (
+    SpikeInversion,
+    _check_positive_scalar,
+    _invert_spikes,
+)
 
 __all__ = ["SPIKE_SHRINKERS", "optimal_hard_threshold", "spike_shrink"]
 
@@ -229,11 +233,11 @@ def _estimate_noise_variance(
 
 def _spike_shrink(
     eigenvalues: np.ndarray,
-    n_samples: int,
+    n_samples: float,
     n_features: int,
     shrinker: Callable,
     noise_variance: float,
-) -> tuple[np.ndarray, int, object]:
+) -> tuple[np.ndarray, int, SpikeInversion]:
     """Core of :func:`spike_shrink` on validated input."""
     inversion = _invert_spikes(eigenvalues, n_features / n_samples, noise_variance)
     eta = shrinker(inversion.spikes / noise_variance, inversion.overlaps)
