@@ -1,5 +1,7 @@
 """Limit laws of random-matrix theory as small distribution objects."""
 
+from rmtclean.laws._marchenko_pastur import MarchenkoPastur
+from rmtclean.laws._semicircle import WignerSemicircle
 from rmtclean.laws._tracy_widom import TracyWidom
 
-__all__ = ["TracyWidom"]
+__all__ = ["MarchenkoPastur", "TracyWidom", "WignerSemicircle"]

@@ -57,11 +57,14 @@ def uniform_draws(size, random_state, owner: str) -> np.ndarray:
     return np.where(u == 0.0, np.finfo(float).tiny, u)
 
 
-def bisect_increasing(func, target, lo, hi, n_iter: int = 64) -> np.ndarray:
+def bisect_increasing(func, target, lo, hi, n_iter: int = 64, deriv=None):
     """Solve ``func(x) = target`` for a nondecreasing ``func`` on ``[lo, hi]``.
 
-    Vectorised bisection; returns the midpoint of the final bracket, which
-    after ``n_iter = 64`` halvings is exact to floating-point resolution.
+    Vectorised bisection (``n_iter = 64`` halvings reach the floating-point
+    resolution of the bracket), then, if ``deriv`` (the derivative) is given,
+    two Newton steps kept inside the final bracket: they restore relative
+    accuracy where the root is tiny compared to the bracket, e.g. next to an
+    edge of the support at 0.
     """
     target = np.asarray(target, dtype=float)
     lo = np.broadcast_to(np.asarray(lo, dtype=float), target.shape).copy()
@@ -71,4 +74,12 @@ def bisect_increasing(func, target, lo, hi, n_iter: int = 64) -> np.ndarray:
         below = func(mid) < target
         lo = np.where(below, mid, lo)
         hi = np.where(below, hi, mid)
-    return 0.5 * (lo + hi)
+    x = 0.5 * (lo + hi)
+    if deriv is not None:
+        with np.errstate(divide="ignore", invalid="ignore"):
+            for _ in range(2):
+                step = (func(x) - target) / deriv(x)
+                new = x - step
+                ok = np.isfinite(new) & (new >= lo) & (new <= hi)
+                x = np.where(ok, new, x)
+    return x
