@@ -9,6 +9,7 @@ import numpy as np
 from rmtclean._validation import Interval, check_value
 
 __all__ = [
+    "InverseSampling",
     "bisect_increasing",
     "check_positive",
     "finish",
@@ -83,3 +84,21 @@ def bisect_increasing(func, target, lo, hi, n_iter: int = 64, deriv=None):
                 ok = np.isfinite(new) & (new >= lo) & (new <= hi)
                 x = np.where(ok, new, x)
     return x
+
+
+class InverseSampling:
+    """Mixin: ``rvs`` by inversion, ``ppf`` of uniform draws."""
+
+    __slots__ = ()
+
+    def rvs(self, size=None, random_state=None):
+        """Random draws by inversion of the cdf: ``ppf`` of uniform draws.
+
+        Parameters
+        ----------
+        size : int or tuple of int, optional
+            Output shape; None gives a float.
+        random_state : None, int, numpy Generator or RandomState
+            Source of randomness (never the global generator).
+        """
+        return self.ppf(uniform_draws(size, random_state, type(self).__name__))

@@ -10,17 +10,17 @@ from numpy.typing import ArrayLike
 
 from rmtclean._validation import Interval, check_value
 from rmtclean.laws._common import (
+    InverseSampling,
     bisect_increasing,
     check_positive,
     finish,
-    uniform_draws,
 )
 
 __all__ = ["MarchenkoPastur"]
 
 
 @dataclass(frozen=True)
-class MarchenkoPastur:
+class MarchenkoPastur(InverseSampling):
     r"""Marchenko-Pastur law with ratio ``q = N/T`` and noise variance ``s2``.
 
     The limit of the eigenvalue distribution of ``S = X'X / T`` for a
@@ -275,16 +275,3 @@ class MarchenkoPastur:
         )
         at_zero = -1.0 / (s2 * (1.0 - q)) if q < 1.0 else complex(np.nan, np.nan)
         return finish(np.where(z == 0, at_zero, g))
-
-    def rvs(self, size=None, random_state=None):
-        """Random draws by inversion of the cdf (not eigenvalues of matrices).
-
-        Parameters
-        ----------
-        size : int or tuple of int, optional
-            Output shape; None gives a float.
-        random_state : None, int, numpy Generator or RandomState
-            Source of randomness.
-        """
-        u = uniform_draws(size, random_state, "MarchenkoPastur")
-        return self.ppf(u)

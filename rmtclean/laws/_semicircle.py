@@ -10,17 +10,17 @@ from numpy.typing import ArrayLike
 
 from rmtclean._validation import Interval, check_value
 from rmtclean.laws._common import (
+    InverseSampling,
     bisect_increasing,
     check_positive,
     finish,
-    uniform_draws,
 )
 
 __all__ = ["WignerSemicircle"]
 
 
 @dataclass(frozen=True)
-class WignerSemicircle:
+class WignerSemicircle(InverseSampling):
     r"""Wigner semicircle law on ``[-radius, radius]``.
 
     The limit of the eigenvalue distribution of ``H / sqrt(N)`` for an
@@ -145,16 +145,3 @@ class WignerSemicircle:
     def std(self) -> float:
         """Standard deviation, ``radius / 2``."""
         return self.radius / 2.0
-
-    def rvs(self, size=None, random_state=None):
-        """Random draws by inversion of the cdf.
-
-        Parameters
-        ----------
-        size : int or tuple of int, optional
-            Output shape; None gives a float.
-        random_state : None, int, numpy Generator or RandomState
-            Source of randomness.
-        """
-        u = uniform_draws(size, random_state, "WignerSemicircle")
-        return self.ppf(u)

@@ -12,7 +12,7 @@ from numpy.typing import ArrayLike
 from scipy.special import airye, roots_laguerre
 
 from rmtclean._validation import Interval, check_value
-from rmtclean.laws._common import finish, uniform_draws
+from rmtclean.laws._common import InverseSampling, finish
 
 __all__ = ["TracyWidom"]
 
@@ -194,7 +194,7 @@ def _raw_moment(beta: int, k: int) -> float:
 
 
 @dataclass(frozen=True)
-class TracyWidom:
+class TracyWidom(InverseSampling):
     r"""Tracy-Widom law TW1 (``beta=1``) or TW2 (``beta=2``).
 
     The limit law of the centred and scaled largest eigenvalue of a real
@@ -332,16 +332,3 @@ class TracyWidom:
     def std(self) -> float:
         """Standard deviation."""
         return math.sqrt(self.var())
-
-    def rvs(self, size=None, random_state=None):
-        """Random draws by inversion of the cdf.
-
-        Parameters
-        ----------
-        size : int or tuple of int, optional
-            Output shape; None gives a float.
-        random_state : None, int, numpy Generator or RandomState
-            Source of randomness.
-        """
-        u = uniform_draws(size, random_state, "TracyWidom")
-        return finish(_quantiles(u, self.beta, from_sf=False))
