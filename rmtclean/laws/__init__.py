@@ -3,5 +3,12 @@
 from rmtclean.laws._marchenko_pastur import MarchenkoPastur
 from rmtclean.laws._semicircle import WignerSemicircle
 from rmtclean.laws._tracy_widom import TracyWidom
+from rmtclean.laws._wishart import LargestEigenvalueScaling, largest_eigenvalue_scaling
 
-__all__ = ["MarchenkoPastur", "TracyWidom", "WignerSemicircle"]
+__all__ = [
+    "LargestEigenvalueScaling",
+    "MarchenkoPastur",
+    "TracyWidom",
+    "WignerSemicircle",
+    "largest_eigenvalue_scaling",
+]
