@@ -247,6 +247,9 @@ class BacktestResult:
     log_likelihood : pandas.DataFrame
         Mean held-out Gaussian log-likelihood of each holding period (rows:
         rebalance dates, columns: cleaners).
+    weights : dict
+        ``(cleaner, rule) -> pandas.DataFrame`` of the weights held from each
+        rebalance date (rows) in each asset (columns).
     window, step : int
     periods_per_year : float
     """
@@ -254,6 +257,7 @@ class BacktestResult:
     returns: object
     turnover: object
     log_likelihood: object
+    weights: dict
     window: int
     step: int
     periods_per_year: float
@@ -432,15 +436,19 @@ def backtest(
         index=rows if index is None else index[window:],
     )
     frame.columns = pd.MultiIndex.from_tuples(keys, names=["cleaner", "rule"])
-    turnover = {}
+    dates = [r.start for r in results] if index is None else index[list(starts)]
+    columns = returns.columns if isinstance(returns, pd.DataFrame) else None
+    turnover, weights = {}, {}
     for key in keys:
         w = np.array([r.weights[key] for r in results])
+        weights[key] = pd.DataFrame(
+            w, index=pd.Index(dates, name="rebalance"), columns=columns
+        )
         turnover[key] = (
             float(np.mean(np.abs(np.diff(w, axis=0)).sum(axis=1)) / 2)
             if len(w) > 1
             else 0.0
         )
-    dates = [r.start for r in results] if index is None else index[list(starts)]
     loglik = pd.DataFrame(
         [r.log_likelihood for r in results], index=pd.Index(dates, name="rebalance")
     )
@@ -448,6 +456,7 @@ def backtest(
         returns=frame,
         turnover=pd.Series(turnover).rename_axis(["cleaner", "rule"]),
         log_likelihood=loglik,
+        weights=weights,
         window=window,
         step=step,
         periods_per_year=float(periods_per_year),

@@ -111,6 +111,9 @@ def test_backtest_layout_and_no_look_ahead(rng):
         result.returns[("LW", "min_variance")].to_numpy()[-20:], X[185:] @ w
     )
     assert list(result.log_likelihood.index) == list(idx[60::25])
+    held = result.weights[("LW", "min_variance")]
+    assert list(held.index) == list(idx[60::25])
+    np.testing.assert_allclose(held.iloc[-1].to_numpy(), w)
     table = result.summary()
     assert list(table.columns) == [
         "volatility",
