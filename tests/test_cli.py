@@ -217,3 +217,25 @@ def test_analyze_text_and_json(returns_csv, capsys):
 
     ref = analyze_spectrum(frame.to_numpy(), standardize=False).to_dict()
     assert payload["report"] == json.loads(json.dumps(ref, default=float))
+
+
+def test_missing_values_and_half_life_options(returns_csv, tmp_path, capsys):
+    from rmtclean.weights import effective_sample_size, exponential_weights
+
+    path, frame = returns_csv
+    holes = frame.copy()
+    holes.iloc[::9, 2] = np.nan
+    holes_path = tmp_path / "holes.csv"
+    holes.to_csv(holes_path)
+    out = tmp_path / "cov.csv"
+    argv = ["clean", holes_path, "--method", "SpikeShrink", "--missing", "em"]
+    code, _, err = _run(argv + ["--out", out], capsys)
+    assert code == 0, err
+    cov = pd.read_csv(out, index_col=0).to_numpy()
+    assert np.all(np.isfinite(cov)) and np.linalg.eigvalsh(cov).min() > 0
+    code, stdout, err = _run(
+        ["clean", path, "--method", "SpikeShrink", "--half-life", "30"], capsys
+    )
+    assert code == 0, err
+    n_eff = effective_sample_size(exponential_weights(frame.shape[0], 30.0))
+    assert f"degrees of freedom: {n_eff - 1:.6g}" in stdout

@@ -197,3 +197,13 @@ def test_no_overlap_is_an_error():
         pairwise_covariance(X)
     with pytest.raises(ValueError, match="'max_iter' parameter of em_covariance"):
         em_covariance(X, max_iter=0)
+
+
+@pytest.mark.parametrize("method", ["pairwise", "em"])
+def test_a_real_cleaner_with_missing_values_is_positive_definite(rng, method):
+    from rmtclean import SpikeShrink
+
+    _, Xm = _with_holes(rng, T=60, N=40, frac=0.2)
+    est = SpikeShrink(missing=method).fit(Xm)
+    assert np.linalg.eigvalsh(est.covariance_).min() > 0
+    assert np.isfinite(est.score(np.nan_to_num(Xm)))
