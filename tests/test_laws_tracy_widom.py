@@ -147,6 +147,22 @@ def test_right_tail_asymptotics():
         assert abs(TW1.logsf(s) - lead) < 2.0 / s**1.5
 
 
+@pytest.mark.parametrize("s", [-4.0, -5.0, -6.0, -7.0, -8.0])
+def test_left_tail_asymptotics(s):
+    # Baik, Buckingham & DiFranco (2008, CMP 280) and Deift, Its & Krasovsky (2008),
+    # from memory: log F1(s) = -|s|^3/24 - |s|^1.5/(3 sqrt2) - log|s|/16 + log tau1
+    # + O(|s|^-1.5), tau1 = 2^(-11/48) e^(zeta'(-1)/2); log F2(s) = -|s|^3/12
+    # - log|s|/8 + log tau2 + O(|s|^-3), tau2 = 2^(1/24) e^(zeta'(-1)). The table
+    # (pure Fredholm values) confirms both with error constants 0.03 and 0.05.
+    zeta_prime = -0.16542114370045092  # zeta'(-1) = 1/12 - log A (Glaisher) [memory]
+    a = -s
+    log_f1 = -(a**3) / 24 - a**1.5 / (3 * math.sqrt(2)) - math.log(a) / 16
+    log_f1 += -11 / 48 * math.log(2) + zeta_prime / 2
+    log_f2 = -(a**3) / 12 - math.log(a) / 8 + math.log(2) / 24 + zeta_prime
+    assert abs(TW1.logcdf(s) - log_f1) < 0.04 * a**-1.5
+    assert abs(TW2.logcdf(s) - log_f2) < 0.06 * a**-3
+
+
 # --- moments -------------------------------------------------------------------------
 
 

@@ -17,7 +17,7 @@ from rmtclean.laws._common import InverseSampling, finish
 __all__ = ["TracyWidom"]
 
 _TABLE_PATH = pathlib.Path(__file__).with_name("_tw_table.npz")
-_N_LAGUERRE = 40
+_N_LAGUERRE = 16  # converged: 16 and 40 nodes agree to 1e-13 relative for s > 16
 
 
 @functools.cache
