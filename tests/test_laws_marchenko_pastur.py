@@ -172,7 +172,23 @@ def test_distribution_structure(q):
     # round trips on the continuous part
     p = np.linspace(law.atom + 1e-6, 1 - 1e-6, 201)
     np.testing.assert_allclose(law.cdf(law.ppf(p)), p, rtol=0, atol=1e-14)
-    np.testing.assert_allclose(law.isf(1 - p), law.ppf(p), rtol=0, atol=1e-14)
+    np.testing.assert_allclose(law.sf(law.isf(1 - p)), 1 - p, rtol=1e-12, atol=0)
+
+
+@pytest.mark.parametrize("q", RATIOS)
+def test_isf_upper_tail(q):
+    # isf solves sf(x) = p directly: it resolves p far below 1e-16, where ppf(1 - p)
+    # cannot; the result is the floating-point x whose neighbours bracket p.
+    law = MarchenkoPastur(ratio=q, variance=1.7)
+    p = np.array([1e-18, 1e-15, 1e-12, 1e-6, 0.01, 0.3])
+    x = law.isf(p)
+    assert np.all(x < law.upper_edge) and np.all(np.diff(x) < 0)
+    assert np.all(law.sf(np.nextafter(x, np.inf)) <= p)
+    assert np.all(law.sf(np.nextafter(x, -np.inf)) >= p)
+    np.testing.assert_allclose(law.isf(0.4), law.ppf(0.6), rtol=1e-14)
+    assert law.isf(0.0) == law.upper_edge
+    assert law.isf(1.0) == (0.0 if q > 1 else law.lower_edge)
+    assert np.isnan(law.isf([-0.1, 1.1])).all()
 
 
 def test_atom_for_ratio_above_one():

@@ -325,6 +325,7 @@ def test_scalar_and_array_io():
     assert np.isnan(TW1.cdf(np.nan)) and np.isnan(TW1.sf(np.nan))
     assert TW1.support() == (-math.inf, math.inf)
     assert repr(TW2) == "TracyWidom(beta=2)"
+    assert repr(TracyWidom(beta=np.int64(1))) == "TracyWidom(beta=1)"
 
 
 def test_rvs_reproducible_and_distributed():

@@ -223,8 +223,24 @@ class MarchenkoPastur(InverseSampling):
         return finish(out)
 
     def isf(self, q: ArrayLike):
-        """Inverse survival function, ``ppf(1 - q)``."""
-        return self.ppf(1.0 - np.asarray(q, dtype=float))
+        """Inverse survival function, solved on ``sf`` itself.
+
+        Accurate for tiny upper-tail probabilities (``ppf(1 - q)`` would round
+        ``q`` away); 0 for ``q >= 1 - atom`` when ratio > 1. NaN outside [0, 1].
+        """
+        q = np.asarray(q, dtype=float)
+        a, b = self.support()
+
+        def minus_sf(x):
+            return -self._cdf_sf(x)[1]
+
+        out = bisect_increasing(minus_sf, -q, a, b, deriv=self.pdf)
+        if self.atom > 0:
+            out = np.where(q >= 1.0 - self.atom, 0.0, out)
+        else:
+            out = np.where(q == 1.0, a, out)
+        out = np.where(q == 0.0, b, out)
+        return finish(np.where((q >= 0.0) & (q <= 1.0), out, np.nan))
 
     def moment(self, order: int) -> float:
         r"""Raw moment :math:`E[X^k]` by the Narayana formula.

@@ -276,6 +276,7 @@ class TracyWidom(InverseSampling):
 
     def __post_init__(self):
         check_value(self.beta, [Interval(int, 1, 2)], "beta", "TracyWidom")
+        object.__setattr__(self, "beta", int(self.beta))
 
     def logcdf(self, x: ArrayLike):
         """Log of the cumulative distribution function."""
