@@ -195,3 +195,79 @@ def test_bad_parameters(rng):
     Xz[:, 1] = 3.0
     with pytest.raises(ValueError, match="zero variance"):
         LinearShrink(target="constant-correlation").fit(Xz)
+
+
+# -- the direct dense fit (no eigendecomposition at fit) against the spectral one ---
+@pytest.mark.parametrize("target", TARGETS)
+@pytest.mark.parametrize("intensity", ["ledoit-wolf", 0.3])
+@pytest.mark.parametrize("bias", [True, False])
+def test_direct_fit_equals_spectral_fit(rng, target, intensity, bias):
+    T, N = 50, 9
+    X = _data(rng, T, N)
+    kw = dict(target=target, intensity=intensity, bias=bias)
+    direct = LinearShrink(**kw).fit(X)
+    # Unit weights give the same estimate through the spectral route.
+    spectral = LinearShrink(**kw).fit(X, sample_weight=np.ones(T))
+    assert "spectrum_" not in vars(direct) and "spectrum_" in vars(spectral)
+    assert direct.shrinkage_ == pytest.approx(spectral.shrinkage_, rel=1e-12)
+    assert direct.degrees_of_freedom_ == spectral.degrees_of_freedom_
+    _close(direct.covariance_, spectral.covariance_)
+    _close(direct.precision_, spectral.precision_)
+    np.testing.assert_allclose(direct.location_, spectral.location_, rtol=1e-14)
+    for name in ("sample_eigenvalues_", "eigenvalues_"):
+        ref = getattr(spectral, name)
+        np.testing.assert_allclose(
+            getattr(direct, name), ref, rtol=0, atol=1e-10 * ref[0]
+        )
+    # Eigenvectors agree up to sign.
+    dots = np.abs(np.sum(direct.eigenvectors_ * spectral.eigenvectors_, axis=0))
+    np.testing.assert_allclose(dots, 1.0, atol=1e-8)
+    X_test = _data(np.random.default_rng(2), 15, N)
+    assert direct.score(X_test) == pytest.approx(spectral.score(X_test), rel=1e-10)
+    _close(direct.transform(X_test), spectral.transform(X_test))
+    _close(direct.mahalanobis(X_test), spectral.mahalanobis(X_test))
+
+
+def test_direct_fit_defers_then_keeps_the_spectrum(rng):
+    X = _data(rng, 40, 6)
+    est = LinearShrink().fit(X)
+    before = dict(vars(est))
+    first = est.spectrum_
+    assert est.spectrum_ is first  # computed once
+    assert vars(est) == before  # using the fit does not change its attributes
+    # A refit through the spectral route replaces the deferred attributes.
+    est.fit(X, sample_weight=np.ones(40))
+    assert est.spectrum_ is not first and "spectrum_" in vars(est)
+    est.fit(X)
+    assert "spectrum_" not in vars(est) and est.spectrum_ is not first
+
+
+@pytest.mark.parametrize("intensity", [0.0, 1.0])
+def test_bounds_of_intensity_use_the_spectral_route(rng, intensity):
+    # delta = 0 or 1 hides S or its eigenvectors in the result: the fit falls
+    # back to the spectral route, which keeps them.
+    X = _data(rng, 40, 6)
+    est = LinearShrink(intensity=intensity).fit(X)
+    assert "spectrum_" in vars(est)
+    Xc = X - X.mean(axis=0)
+    lam = np.linalg.eigvalsh(Xc.T @ Xc / 40)[::-1]
+    np.testing.assert_allclose(est.sample_eigenvalues_, lam, rtol=1e-10)
+
+
+def test_singular_sample_covariance_without_shrinkage(rng):
+    # T = N after demeaning leaves S singular: with delta = 0 the precision is
+    # the pseudo-inverse of the spectral route, as sklearn's pinvh.
+    X = _data(rng, 8, 8)
+    est = LinearShrink(intensity=0.0).fit(X)
+    ref = ShrunkCovariance(shrinkage=0.0).fit(X)
+    _close(est.covariance_, ref.covariance_)
+    assert est.sample_eigenvalues_[-1] == 0.0
+
+
+@pytest.mark.parametrize("intensity", ["ledoit-wolf", 0.0])
+def test_dataframe_feature_names_on_both_routes(rng, intensity):
+    import pandas as pd
+
+    X = pd.DataFrame(_data(rng, 30, 4), columns=list("abcd"))
+    est = LinearShrink(intensity=intensity).fit(X)
+    np.testing.assert_array_equal(est.feature_names_in_, list("abcd"))

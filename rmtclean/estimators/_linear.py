@@ -3,9 +3,14 @@
 from __future__ import annotations
 
 import numpy as np
+from scipy.linalg import lapack
 
 from rmtclean._validation import BOOLEAN, Interval, Options, check_params
-from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.estimators._base import (
+    DENSE_STORE_LIMIT,
+    SpectralCovariance,
+    common_params_doc,
+)
 from rmtclean.rules._linear import (
     INTENSITY_METHODS,
     SHRINKAGE_TARGETS,
@@ -16,9 +21,12 @@ from rmtclean.rules._linear import (
     _target,
 )
 from rmtclean.rules._types import CleanedEigenvalues
-from rmtclean.spectrum import CleanedSpectrum, SampleSpectrum
+from rmtclean.spectrum import DENSE_LIMIT, CleanedSpectrum, SampleSpectrum
 
 __all__ = ["LinearShrink"]
+
+#: Fitted attributes that the direct dense fit computes on first use.
+_DEFERRED = ("spectrum_", "eigenvalues_", "eigenvectors_", "sample_eigenvalues_")
 
 _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
 
@@ -63,7 +71,8 @@ _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
         The column means (zeros when ``assume_centered``).
     spectrum_ : CleanedSpectrum
         The shrunk covariance in spectral form (used by ``transform``,
-        ``score`` and ``mahalanobis``).
+        ``score`` and ``mahalanobis``); computed on first use after a
+        direct fit (see Notes).
     sample_eigenvalues_ : ndarray of shape (n_features,)
         Descending eigenvalues of the sample covariance with the divisor
         ``degrees_of_freedom_`` (of its standardised form when
@@ -92,15 +101,26 @@ _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
 
     Notes
     -----
-    The identity target is rotation invariant: the fit is the base class's
-    seam (one sample spectrum, the rule :func:`rmtclean.rules.linear_shrink`
-    on its eigenvalues), which also serves N > T without an N x N matrix
-    (``route="gram"``). Its Ledoit-Wolf intensity needs, beyond the
-    eigenvalues, only the squared norms of the T centred rows (O(N T)).
+    Two routes give the same estimate (tested against each other):
 
-    The other targets are not: ``S`` and ``F`` are formed densely (N x N
-    memory for any ``route``), the intensity costs O(N T) more, and the
-    shrunk matrix is diagonalised once to serve ``spectrum_``.
+    - Direct (unweighted, no ``standardize``, the dense route with a stored
+      ``covariance_``): one product ``X_c' X_c``, the intensity in O(N T)
+      (:func:`rmtclean.rules.shrinkage_intensity`), and ``precision_`` by a
+      Cholesky inverse. No eigendecomposition is computed at fit:
+      ``spectrum_``, ``eigenvalues_``, ``eigenvectors_`` and
+      ``sample_eigenvalues_`` are computed on first use (one ``eigh`` of
+      ``covariance_``; ``S`` is recovered as ``(covariance_ - delta F) /
+      (1 - delta)``, since ``F`` is also the target of ``covariance_``).
+      This is what makes the default fit several times faster than
+      ``LedoitWolf``, which forms three N x N products and a ``pinvh``.
+    - Spectral (everything else, and the direct route's fallback when
+      ``delta`` is 0 or 1 or the result is not numerically positive
+      definite): the base class's seam. For the identity target, which is
+      rotation invariant, the rule :func:`rmtclean.rules.linear_shrink` runs
+      on the sample eigenvalues and the squared norms of the centred rows,
+      so N > T needs no N x N matrix (``route="gram"``). The other targets
+      form ``S`` and ``F`` densely (N x N memory for any ``route``) and
+      diagonalise the shrunk matrix to serve ``spectrum_``.
 
     References
     ----------
@@ -168,6 +188,11 @@ class LinearShrink(SpectralCovariance):
         """Fit the shrunk covariance to ``X``; see :meth:`SpectralCovariance.fit`."""
         check_params(self)
         _check_combination(self.target, self.intensity, type(self).__name__)
+        if sample_weight is None and not self.standardize:
+            Xv = self._validate_fit_data(X)
+            if self._direct_route(Xv.shape) and self._fit_direct(Xv):
+                return self
+        self.__dict__.pop("_deferred", None)
         super().fit(X, y, sample_weight=sample_weight)
         dof = self.degrees_of_freedom_
         self.degrees_of_freedom_ = self._divisor(dof)
@@ -179,6 +204,80 @@ class LinearShrink(SpectralCovariance):
     def _divisor(self, dof: float) -> float:
         """The divisor of S: the number of samples (bias) or the dof."""
         return dof + 1.0 if (self.bias and not self.assume_centered) else dof
+
+    def _direct_route(self, shape) -> bool:
+        """Whether the base would take the dense route and store covariance_."""
+        n_rows, n_features = shape
+        route = self.route
+        if route == "auto":
+            big = n_features > n_rows or n_features > DENSE_LIMIT
+            route = "gram" if big else "dense"
+        store = self.store_covariance
+        if store == "auto":
+            store = n_features <= DENSE_STORE_LIMIT
+        return route == "dense" and bool(store)
+
+    def _shrunk(self, Xc, weights, n):
+        """``(delta, (1 - delta) S + delta F)`` for centred rows and divisor n."""
+        Z = Xc if weights is None else Xc * np.sqrt(weights)[:, None]
+        S = Z.T @ Z
+        S /= n
+        if isinstance(self.intensity, str):
+            frob2 = float(np.vdot(S, S))
+            delta = _intensity(
+                Xc, n, self.target, self.intensity, weights=weights, frob2=frob2
+            )
+        else:
+            delta = float(self.intensity)
+        return delta, _combine(S, _target(S, self.target), delta)
+
+    def _fit_direct(self, X) -> bool:
+        """One X'X, the O(N T) intensity and a Cholesky inverse; no eigh.
+
+        Returns False, leaving the fit to the spectral route, when the
+        sample spectrum could not be recovered from the result (delta of 0
+        or 1) or the shrunk matrix is not numerically positive definite.
+        """
+        X64 = np.asarray(X, dtype=np.float64)
+        n_rows = X64.shape[0]
+        if self.assume_centered:
+            location, Xc = np.zeros(X64.shape[1]), X64
+        else:
+            location = X64.mean(axis=0)
+            Xc = X64 - location
+        n = self._divisor(float(n_rows if self.assume_centered else n_rows - 1))
+        delta, cov = self._shrunk(Xc, None, n)
+        if not 0.0 < delta < 1.0:
+            return False
+        precision = None
+        if self.store_precision:
+            precision = _spd_inverse(cov)
+            if precision is None:
+                return False
+        out_dtype = X.dtype if X.dtype == np.float32 else np.float64
+        for name in _DEFERRED:
+            self.__dict__.pop(name, None)
+        self._deferred = _DeferredSpectrum(cov, delta, self.target)
+        self.location_ = location
+        self.covariance_ = cov.astype(out_dtype, copy=False)
+        self.precision_ = (
+            None if precision is None else precision.astype(out_dtype, copy=False)
+        )
+        self.shrinkage_ = delta
+        self.n_signal_ = None
+        self.scale_ = None
+        self.degrees_of_freedom_ = n
+        return True
+
+    def __getattr__(self, name):
+        # Only reached when normal lookup fails: the deferred attributes of a
+        # direct fit.
+        deferred = self.__dict__.get("_deferred")
+        if deferred is not None and name in _DEFERRED:
+            return deferred.get(name)
+        raise AttributeError(
+            f"{type(self).__name__!r} object has no attribute {name!r}"
+        )
 
     def _clean(self, spectrum: SampleSpectrum):
         dof = float(spectrum.n_samples)
@@ -196,22 +295,57 @@ class LinearShrink(SpectralCovariance):
             )
             self.shrinkage_ = out.details["intensity"]
             return CleanedEigenvalues(out.values, null_value=out.null_value)
-        Z = Xc if w is None else Xc * np.sqrt(w)[:, None]
-        S = Z.T @ Z
-        S /= n
-        if isinstance(self.intensity, str):
-            delta = _intensity(
-                Xc,
-                n,
-                self.target,
-                self.intensity,
-                weights=w,
-                frob2=float(np.vdot(S, S)),
-            )
-        else:
-            delta = float(self.intensity)
-        self.shrinkage_ = delta
-        vals, vecs = np.linalg.eigh(_combine(S, _target(S, self.target), delta))
+        self.shrinkage_, cov = self._shrunk(Xc, w, n)
+        vals, vecs = np.linalg.eigh(cov)
         return CleanedSpectrum(
             vecs[:, ::-1], np.maximum(vals[::-1], 0.0), scale=spectrum.scale
         )
+
+
+def _spd_inverse(A: np.ndarray) -> np.ndarray | None:
+    """Inverse of a symmetric positive definite matrix by Cholesky, else None."""
+    factor, info = lapack.dpotrf(A, lower=1, clean=0)
+    if info != 0:
+        return None
+    inv, info = lapack.dpotri(factor, lower=1)
+    if info != 0:
+        return None
+    inv = np.tril(inv)
+    inv += np.tril(inv, -1).T
+    return inv
+
+
+class _DeferredSpectrum:
+    """Spectral attributes of a direct dense fit, computed on first use.
+
+    Every target is unchanged by the shrinkage (``target(cov) = F``: same
+    trace, same diagonal, same mean correlation), so the sample covariance
+    is recovered as ``S = (cov - delta F) / (1 - delta)`` for ``delta < 1``.
+    """
+
+    def __init__(self, covariance: np.ndarray, delta: float, target: str):
+        self._cov = covariance
+        self._delta = delta
+        self._target = target
+        self._cache = None
+
+    def get(self, name: str):
+        if self._cache is None:
+            cov, delta = self._cov, self._delta
+            vals, vecs = np.linalg.eigh(cov)
+            spectrum = CleanedSpectrum(
+                np.ascontiguousarray(vecs[:, ::-1]), np.maximum(vals[::-1], 0.0)
+            )
+            if self._target == "identity":  # same eigenvectors, monotone map
+                mu = np.trace(cov) / cov.shape[0]
+                sample = (spectrum.eigenvalues - delta * mu) / (1.0 - delta)
+            else:
+                S = (cov - delta * _target(cov, self._target)) / (1.0 - delta)
+                sample = np.linalg.eigvalsh(S)[::-1]
+            self._cache = {
+                "spectrum_": spectrum,
+                "eigenvalues_": spectrum.full_eigenvalues(),
+                "eigenvectors_": spectrum.eigenvectors,
+                "sample_eigenvalues_": np.maximum(sample, 0.0),
+            }
+        return self._cache[name]

@@ -31,7 +31,7 @@ import numbers
 import numpy as np
 
 from rmtclean._data import check_data, check_eigenvalues
-from rmtclean._validation import check_sample_weight
+from rmtclean._validation import Interval, Options, check_sample_weight, check_value
 from rmtclean.rules._types import CleanedEigenvalues
 
 __all__ = [
@@ -198,30 +198,16 @@ def _combine(S: np.ndarray, F: np.ndarray, delta: float) -> np.ndarray:
 
 # -- validation helpers ----------------------------------------------------
 def _check_choice(value, name: str, owner: str, choices) -> str:
-    if not (isinstance(value, str) and value in choices):
-        allowed = ", ".join(repr(c) for c in choices)
-        raise ValueError(
-            f"The {name!r} parameter of {owner} must be one of {allowed}. "
-            f"Got {value!r} instead."
-        )
+    check_value(value, [Options(choices)], name, owner)
     return value
 
 
 def _check_intensity(value, name: str, owner: str):
-    """A method name or a real number in [0, 1]."""
-    if isinstance(value, str):
-        return _check_choice(value, name, owner, INTENSITY_METHODS)
-    if (
-        isinstance(value, numbers.Real)
-        and not isinstance(value, (bool, np.bool_))
-        and 0.0 <= value <= 1.0
-    ):
-        return float(value)
-    allowed = ", ".join(repr(c) for c in INTENSITY_METHODS)
-    raise ValueError(
-        f"The {name!r} parameter of {owner} must be one of {allowed} or a float "
-        f"in the range [0, 1]. Got {value!r} instead."
+    """A method name or a real number in [0, 1] (returned as a float)."""
+    check_value(
+        value, [Options(INTENSITY_METHODS), Interval(float, 0.0, 1.0)], name, owner
     )
+    return value if isinstance(value, str) else float(value)
 
 
 def _check_combination(target: str, intensity, owner: str) -> None:
