@@ -7,6 +7,8 @@ import json
 import sys
 from pathlib import Path
 
+from rmtclean.bench import add_bench_parser
+
 __all__ = ["main", "build_parser", "METHODS"]
 
 #: Cleaners that ``rmtclean clean --method`` knows, by their class names.
@@ -336,6 +338,7 @@ def build_parser() -> argparse.ArgumentParser:
     demo.add_argument("--seed", type=int, default=7, help="scenario seed")
     demo.set_defaults(func=_cmd_demo)
     _add_data_parsers(sub)
+    add_bench_parser(sub)
     return parser
 
 
