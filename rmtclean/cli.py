@@ -7,12 +7,19 @@ import json
 import sys
 from pathlib import Path
 
-from rmtclean.bench import RMTCLEAN_ESTIMATORS, add_bench_parser
+from rmtclean.bench import add_bench_parser
 
 __all__ = ["main", "build_parser", "METHODS"]
 
 #: Cleaners that ``rmtclean clean --method`` knows, by their class names.
-METHODS = RMTCLEAN_ESTIMATORS
+METHODS = (
+    "EigenClip",
+    "LinearShrink",
+    "KernelShrink",
+    "StieltjesShrink",
+    "SpikeShrink",
+    "SplitShrink",
+)
 
 #: Fewest observations (after any price conversion) the data commands accept.
 MIN_ROWS = 3
