@@ -52,10 +52,36 @@ INTENSITY_METHODS = ("ledoit-wolf", "oas", "oas-sklearn")
 
 
 # -- private cores (no validation) -----------------------------------------
-def _ratio(num: float, den: float) -> float:
-    """``min(num, den) / den``, and 0 when that minimum is not positive."""
+def _ratio(num: float, den: float, noise: float = 0.0) -> float:
+    """``min(num, den) / den``, and 0 when that minimum is not positive.
+
+    ``noise`` is the size of the terms whose difference gave ``num``: a
+    ``num`` within their rounding error is zero. (Two rows centre to +x and
+    -x, so every ``x_t x_t'`` equals ``S`` and the dispersion is exactly 0,
+    but the difference of sums leaves ~1e-16 of ``noise``.)
+    """
+    if num <= _ROUNDING * noise:
+        return 0.0
     top = min(num, den)
     return float(top / den) if top > 0 else 0.0
+
+
+#: Relative rounding error allowed in a difference of accumulated sums.
+_ROUNDING = 64.0 * np.finfo(np.float64).eps
+
+
+def _unit_scale(values: np.ndarray, power: int) -> float:
+    """A power of two taking ``max |values|`` near 1 when raising it to ``power``
+    would leave the float64 range (about 1e+-300); else 1.
+
+    The intensities are scale free, so they are computed in these units:
+    multiplying by a power of two is exact, and ordinary data are untouched.
+    """
+    top = float(np.max(np.abs(values))) if values.size else 0.0
+    limit = 2.0 ** (960 // power)
+    if top == 0.0 or 1.0 / limit <= top <= limit:
+        return 1.0
+    return float(2.0 ** -np.frexp(top)[1])
 
 
 def _identity_intensity(
@@ -83,7 +109,8 @@ def _identity_intensity(
         # sum_t w_t x_t x_t' = n S; the LW (2004) ratio b^2/d^2 is
         # min(sum pi / n, gamma) / gamma (the 1/p normalisations cancel).
         pi_sum = (fourth - (2.0 * n - n_rows) * frob2) / n
-        return _ratio(pi_sum / n, gamma)
+        noise = (fourth + abs(2.0 * n - n_rows) * frob2) / (n * n)
+        return _ratio(pi_sum / n, gamma, noise)
     if method == "oas-sklearn":
         num = frob2 + trace**2
         den = (n + 1.0) * gamma
@@ -117,6 +144,10 @@ def _intensity(
     the smaller Gram matrix when not given).
     """
     n_rows_arr, p = Xc.shape
+    scale = _unit_scale(Xc, 4)
+    if scale != 1.0:  # fourth moments of the data would over- or underflow
+        Xc = Xc * scale
+        frob2 = None
     w = np.ones(n_rows_arr) if weights is None else weights
     m = float(w.sum())
     X2 = Xc * Xc
@@ -147,9 +178,10 @@ def _intensity(
     pi_sum = (fourth - (2.0 * n - m) * frob2) / n
     pi_diag = (x4 - (2.0 * n - m) * dd) / n
     off2 = frob2 - dd  # sum_{i != j} s_ij^2
+    noise = (fourth + x4 + abs(2.0 * n - m) * (frob2 + dd)) / (n * n)
     if target == "diagonal":
         # F = diag(S): rho = sum_i pi_ii exactly, gamma = sum_{i != j} s_ij^2.
-        return _ratio((pi_sum - pi_diag) / n, off2)
+        return _ratio((pi_sum - pi_diag) / n, off2, noise)
     sig = _column_scales(d)
     u = Xc @ (1.0 / sig)
     v = Xc @ sig
@@ -160,9 +192,11 @@ def _intensity(
     # sum_{i != j} (sig_j / sig_i) theta_{ii,ij} with
     # theta_{ii,ij} = (1/n) sum_t w_t (x_ti^2 - s_ii)(x_ti x_tj - s_ij).
     cube = (X2 * Xc) @ (1.0 / sig)
-    theta = (float(w @ (cube * v)) - x4) / n - (2.0 - m / n) * sSs_off
+    cross = float(w @ (cube * v))
+    theta = (cross - x4) / n - (2.0 - m / n) * sSs_off
     rho = pi_diag + rbar * theta
-    return _ratio((pi_sum - rho) / n, gamma)
+    noise += abs(rbar) * ((abs(cross) + x4) / n + abs(2.0 - m / n) * abs(sSs_off)) / n
+    return _ratio((pi_sum - rho) / n, gamma, noise)
 
 
 def _column_scales(d: np.ndarray) -> np.ndarray:
@@ -370,18 +404,21 @@ def _linear_shrink(
     p = n_features
     trace = float(vals.sum())
     mu = trace / p
-    frob2 = float(vals @ vals)
-    dev = vals - mu
-    gamma = float(dev @ dev) + (p - vals.size) * mu * mu  # ||S - mu I||_F^2
     if isinstance(intensity, str):
+        # Scale free: in units where squared eigenvalues stay in range.
+        scale = _unit_scale(vals, 2)
+        v, mu_v = vals * scale, mu * scale
+        frob2 = float(v @ v)
+        dev = v - mu_v
+        gamma = float(dev @ dev) + (p - v.size) * mu_v * mu_v  # ||S - mu I||_F^2
         fourth = n_rows = None
         if intensity == "ledoit-wolf":
-            sq = squared_norms
+            sq = squared_norms * scale
             w = np.ones(sq.size) if sample_weight is None else sample_weight
             fourth, n_rows = float(w @ (sq * sq)), float(w.sum())
         delta = _identity_intensity(
             intensity,
-            trace=trace,
+            trace=trace * scale,
             frob2=frob2,
             gamma=gamma,
             n_samples=n_samples,
@@ -461,6 +498,13 @@ def shrinkage_intensity(
     ``sum_{ij} (X^3' X)_ij sig_j / sig_i`` as a product of two matrix-vector
     products), so only O(N T) work remains. For the identity target
     Ledoit-Wolf (2004) [1]_ takes ``rho = 0``.
+
+    The intensity is scale free and is computed in units of the largest
+    entry when fourth moments of the data would leave the float64 range.
+    With two rows the centred rows are ``+x`` and ``-x``, every
+    ``x_t x_t'`` equals ``S``, and the Ledoit-Wolf intensity is 0 (a
+    difference within rounding error of its terms counts as 0): the
+    estimate is ``S`` itself, of rank one.
 
     References
     ----------
