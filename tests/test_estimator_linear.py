@@ -271,3 +271,19 @@ def test_dataframe_feature_names_on_both_routes(rng, intensity):
     X = pd.DataFrame(_data(rng, 30, 4), columns=list("abcd"))
     est = LinearShrink(intensity=intensity).fit(X)
     np.testing.assert_array_equal(est.feature_names_in_, list("abcd"))
+
+
+@pytest.mark.parametrize("target", TARGETS)
+@pytest.mark.parametrize("scale", [1.0, 1e-150, 1e150])
+def test_two_rows_give_the_pseudo_inverse(rng, target, scale):
+    # [computed] with T = 2 every centred row has x_t x_t' = S, so every
+    # Ledoit-Wolf-type intensity is 0 and S (rank 1) is returned; its precision
+    # is the pseudo-inverse (numpy pinv), at any scale of the data.
+    X = scale * _data(rng, 2, 3)
+    est = LinearShrink(target=target).fit(X)
+    assert est.shrinkage_ == 0.0
+    Xc = X - X.mean(axis=0)
+    S = Xc.T @ Xc / 2
+    _close(est.covariance_, S)
+    pinv = np.linalg.pinv(S / scale**2, rcond=1e-10) / scale**2
+    _close(est.precision_, pinv)

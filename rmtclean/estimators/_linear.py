@@ -296,10 +296,21 @@ class LinearShrink(SpectralCovariance):
             self.shrinkage_ = out.details["intensity"]
             return CleanedEigenvalues(out.values, null_value=out.null_value)
         self.shrinkage_, cov = self._shrunk(Xc, w, n)
-        vals, vecs = np.linalg.eigh(cov)
-        return CleanedSpectrum(
-            vecs[:, ::-1], np.maximum(vals[::-1], 0.0), scale=spectrum.scale
-        )
+        return _dense_spectrum(cov, scale=spectrum.scale)
+
+
+def _dense_spectrum(cov: np.ndarray, scale=None) -> CleanedSpectrum:
+    """Descending eigenpairs of a dense symmetric matrix as a CleanedSpectrum.
+
+    Eigenvalues at or below ``N eps`` times the largest are set to zero, so
+    the inverse is the pseudo-inverse (the threshold of ``scipy.linalg.pinvh``),
+    not the reciprocal of rounding noise.
+    """
+    vals, vecs = np.linalg.eigh(cov)
+    vals = vals[::-1].copy()
+    tol = max(vals[0], 0.0) * cov.shape[0] * np.finfo(np.float64).eps
+    vals[vals <= tol] = 0.0
+    return CleanedSpectrum(np.ascontiguousarray(vecs[:, ::-1]), vals, scale=scale)
 
 
 def _spd_inverse(A: np.ndarray) -> np.ndarray | None:
@@ -332,10 +343,7 @@ class _DeferredSpectrum:
     def get(self, name: str):
         if self._cache is None:
             cov, delta = self._cov, self._delta
-            vals, vecs = np.linalg.eigh(cov)
-            spectrum = CleanedSpectrum(
-                np.ascontiguousarray(vecs[:, ::-1]), np.maximum(vals[::-1], 0.0)
-            )
+            spectrum = _dense_spectrum(cov)
             if self._target == "identity":  # same eigenvectors, monotone map
                 mu = np.trace(cov) / cov.shape[0]
                 sample = (spectrum.eigenvalues - delta * mu) / (1.0 - delta)
