@@ -1,5 +1,6 @@
 """Rules: pure functions from a sample spectrum to cleaned eigenvalues."""
 
+from rmtclean.rules._clipping import eigen_clip
 from rmtclean.rules._linear import (
     INTENSITY_METHODS,
     SHRINKAGE_TARGETS,
@@ -19,6 +20,7 @@ from rmtclean.rules._types import CleanedEigenvalues
 __all__ = sorted(
     [
         "CleanedEigenvalues",
+        "eigen_clip",
         "INTENSITY_METHODS",
         "SHRINKAGE_TARGETS",
         "linear_shrink",

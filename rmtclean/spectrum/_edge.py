@@ -14,6 +14,8 @@ from rmtclean.spectrum._bulk import _bulk_sizes, _check_eigenvalues, _check_size
 __all__ = ["EdgeTest", "detect_signal"]
 
 _CONSTANTS = ("half-integer", "johnstone")
+#: Default centring constants (chosen by benchmarks/edge_false_alarm.py).
+DEFAULT_CONSTANTS = "half-integer"
 
 
 @dataclass(frozen=True)
@@ -228,7 +230,7 @@ def detect_signal(
     *,
     alpha: float = 0.05,
     max_signal: int | None = None,
-    constants: str = "half-integer",
+    constants: str = DEFAULT_CONSTANTS,
     noise_variance: float | None = None,
     adjust: bool = True,
 ) -> EdgeTest:

@@ -1,0 +1,198 @@
+"""Eigenvalue clipping: keep the signal, flatten the noise bulk to its mean."""
+
+from __future__ import annotations
+
+import math
+from numbers import Integral, Real
+
+import numpy as np
+
+from rmtclean.rules._types import CleanedEigenvalues
+from rmtclean.spectrum._bulk import (
+    _check_eigenvalues,
+    _check_sizes,
+    _fit_bulk,
+)
+from rmtclean.spectrum._edge import DEFAULT_CONSTANTS, _check_alpha, _detect_signal
+
+__all__ = ["eigen_clip"]
+
+_EDGES = ("bulk-fit", "tracy-widom")
+
+
+def _bulk_fit_count(values, n_samples, n_features):
+    """Number of eigenvalues above the upper edge of a self-consistent bulk fit.
+
+    Start with no signal, fit the bulk, count the eigenvalues above its upper
+    edge, refit without them, and repeat until the count stops growing. The
+    count never decreases, so the loop ends.
+    """
+    high = min(values.size - 2, math.ceil(n_samples) - 1)
+    k = 0
+    while True:
+        fit = _fit_bulk(values, n_samples, n_features, k, True, "cvm")
+        count = min(int(np.count_nonzero(values > fit.upper_edge)), high)
+        if count <= k or not np.any(values[count:] > 0):
+            return k, fit
+        k = count
+
+
+def _eigen_clip(values, n_samples, n_features, edge, n_keep, alpha):
+    """Unvalidated core of :func:`eigen_clip`."""
+    details: dict = {}
+    if n_keep is not None:
+        k = n_keep
+        details["edge"] = "n_keep"
+    elif isinstance(edge, str) and edge == "tracy-widom":
+        high = min(values.size - 1, math.ceil(n_samples) - 2)
+        test = _detect_signal(
+            values, n_samples, n_features, alpha, max(high, 0), DEFAULT_CONSTANTS, None
+        )
+        k = test.n_signal
+        details.update(
+            edge=test.threshold,
+            noise_variance=test.noise_variance,
+            p_values=test.p_values,
+        )
+    elif isinstance(edge, str):
+        k, fit = _bulk_fit_count(values, n_samples, n_features)
+        details.update(edge=fit.upper_edge, noise_variance=fit.noise_variance)
+    else:
+        k = int(np.count_nonzero(values > edge))
+        k = min(k, values.size - 1)
+        details["edge"] = float(edge)
+    n_null = n_features - values.size
+    # The mean of everything not kept, the null space's zeros included, so
+    # the trace is unchanged.
+    mean = float(np.sum(values[k:])) / (n_features - k)
+    cleaned = values.copy()
+    cleaned[k:] = mean
+    details["bulk_mean"] = mean
+    return CleanedEigenvalues(
+        values=cleaned,
+        null_value=mean if n_null > 0 else None,
+        n_signal=int(k),
+        details=details,
+    )
+
+
+def eigen_clip(
+    eigenvalues,
+    n_samples: float,
+    n_features: int,
+    *,
+    edge: str | float = "bulk-fit",
+    n_keep: int | None = None,
+    alpha: float = 0.05,
+) -> CleanedEigenvalues:
+    r"""Clip the noise eigenvalues to their mean, keeping the signal.
+
+    Parameters
+    ----------
+    eigenvalues : array_like of shape (n_components,)
+        Sample eigenvalues in descending order (the nonzero part; the
+        ``n_features - n_components`` null-space eigenvalues are implicit
+        zeros).
+    n_samples : float
+        Degrees of freedom of the sample covariance (``T - 1`` after
+        demeaning).
+    n_features : int
+        Dimension ``N``.
+    edge : {"bulk-fit", "tracy-widom"} or float, default="bulk-fit"
+        Where the noise ends. ``"bulk-fit"``: the upper edge of the
+        Marchenko-Pastur law fitted to the bulk, refitted without the
+        eigenvalues above it until the count is stable (Laloux et al. [1]_).
+        ``"tracy-widom"``: the number of signal eigenvalues found by
+        :func:`rmtclean.spectrum.detect_signal` at level ``alpha``. A float:
+        keep the eigenvalues strictly above this value.
+    n_keep : int or None, default=None
+        Keep exactly the ``n_keep`` largest eigenvalues; overrides ``edge``.
+    alpha : float, default=0.05
+        Level of the Tracy-Widom tests (``edge="tracy-widom"`` only).
+
+    Returns
+    -------
+    CleanedEigenvalues
+        ``values``: the ``n_signal`` largest eigenvalues unchanged, the others
+        replaced by the mean of all the eigenvalues not kept (null space
+        included); ``null_value``: that mean when ``n_features >
+        n_components``, else None; ``n_signal``; ``details`` with ``edge``,
+        ``bulk_mean`` and, for a fitted edge, ``noise_variance``.
+
+    See Also
+    --------
+    rmtclean.spectrum.fit_bulk, rmtclean.spectrum.detect_signal
+
+    Notes
+    -----
+    With ``k`` eigenvalues kept, every other eigenvalue (the null-space zeros
+    too) becomes
+
+    .. math::
+
+        \bar\lambda = \frac{1}{N - k} \sum_{j > k} \lambda_j ,
+
+    so the trace is preserved; the eigenvectors are kept. At least one
+    eigenvalue is always clipped, so a rank-deficient spectrum is never
+    returned singular unless its whole bulk is zero.
+
+    References
+    ----------
+    .. [1] Laloux, L., Cizeau, P., Bouchaud, J.-P. and Potters, M. (1999).
+       Noise dressing of financial correlation matrices. Phys. Rev. Lett.
+       83(7), 1467-1470.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from rmtclean.rules import eigen_clip
+    >>> eig = np.array([9.0, 2.0, 1.5, 1.0, 0.5])
+    >>> out = eigen_clip(eig, n_samples=100, n_features=6, n_keep=1)
+    >>> out.values
+    array([9., 1., 1., 1., 1.])
+    >>> out.null_value, out.n_signal
+    (1.0, 1)
+    """
+    function = "eigen_clip"
+    n_samples, n_features = _check_sizes(n_samples, n_features, function)
+    values = _check_eigenvalues(eigenvalues, n_features, function)
+    if isinstance(edge, str):
+        if edge not in _EDGES:
+            raise ValueError(
+                f"The 'edge' parameter of {function} must be one of {_EDGES} or "
+                f"a non-negative float. Got {edge!r} instead."
+            )
+    elif (
+        isinstance(edge, bool)
+        or not isinstance(edge, Real)
+        or not math.isfinite(edge)
+        or edge < 0
+    ):
+        raise ValueError(
+            f"The 'edge' parameter of {function} must be one of {_EDGES} or a "
+            f"non-negative float. Got {edge!r} instead."
+        )
+    if n_keep is not None and (
+        isinstance(n_keep, bool)
+        or not isinstance(n_keep, Integral)
+        or not 0 <= n_keep < values.size
+    ):
+        raise ValueError(
+            f"The 'n_keep' parameter of {function} must be None or an int in the "
+            f"range [0, {values.size - 1}] (at least one eigenvalue is clipped). "
+            f"Got {n_keep!r} instead."
+        )
+    alpha = _check_alpha(alpha, function)
+    if n_keep is None and isinstance(edge, str) and values.size < 3:
+        raise ValueError(
+            f"eigen_clip with edge={edge!r} needs at least 3 eigenvalues to fit "
+            f"the noise. Got {values.size}; pass n_keep or a float edge."
+        )
+    return _eigen_clip(
+        values,
+        n_samples,
+        n_features,
+        edge,
+        None if n_keep is None else int(n_keep),
+        alpha,
+    )
