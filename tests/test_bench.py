@@ -283,3 +283,15 @@ def test_jsonl_round_trips_infinities(tmp_path):
         # strict JSON: no bare Infinity or NaN tokens
         json.loads(line, parse_constant=lambda token: pytest.fail(token))
     assert len(back) == len(rows)
+
+
+def test_thread_limit_is_restored():
+    import numba
+
+    from rmtclean.bench import limit_threads
+
+    before = numba.get_num_threads()
+    with pytest.raises(RuntimeError), limit_threads(1):
+        assert numba.get_num_threads() == 1
+        raise RuntimeError("inside")
+    assert numba.get_num_threads() == before
