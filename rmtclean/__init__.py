@@ -7,7 +7,13 @@ from rmtclean.estimators import (
     SplitShrink,
 )
 from rmtclean.rules import CleanedEigenvalues
-from rmtclean.spectrum import CleanedSpectrum, SampleSpectrum, sample_spectrum
+from rmtclean.spectrum import (
+    CleanedSpectrum,
+    SampleSpectrum,
+    SpectrumReport,
+    analyze_spectrum,
+    sample_spectrum,
+)
 
 __version__ = "0.1.0"
 
@@ -17,6 +23,8 @@ __all__ = sorted(
         "CleanedSpectrum",
         "LinearShrink",
         "SampleSpectrum",
+        "SpectrumReport",
+        "analyze_spectrum",
         "SpectralCovariance",
         "SpikeShrink",
         "SplitShrink",

@@ -1,0 +1,139 @@
+"""Tests of the spectrum report (rmtclean.analyze_spectrum)."""
+
+import dataclasses
+import json
+
+import numpy as np
+import pytest
+
+from rmtclean import SpectrumReport, analyze_spectrum
+from rmtclean.spectrum import detect_signal, fit_bulk, sample_spectrum
+from tests._spectra import one_blas_thread
+
+__all__ = ["one_blas_thread"]  # the autouse fixture, imported
+
+SPIKES = np.array([10.0, 6.0, 4.0])  # noise variance 1; BBP threshold 1.5 at q = 1/4
+
+
+def spiked_data(rng, n_rows=801, n_features=200):
+    scales = np.ones(n_features)
+    scales[: SPIKES.size] = np.sqrt(SPIKES)
+    return rng.standard_normal((n_rows, n_features)) * scales
+
+
+def test_planted_spikes_and_overlaps_recovered(rng):
+    # Baik, Ben Arous & Peche 2005 / Paul 2007 (REFERENCES.md item 4,
+    # [memory+checked]): spikes above 1 + sqrt(q) are recovered by inverting
+    # lambda = ell (1 + q/(ell - 1)), and the squared overlap of the sample
+    # eigenvector with the true direction tends to
+    # (1 - q/(ell-1)^2)/(1 + q/(ell-1)). Compared over replicates with the
+    # true spikes and the realised overlaps, within 4 Monte Carlo se.
+    reps, n_features = 12, 200
+    spikes, overlaps, realised, noise = [], [], [], []
+    for _ in range(reps):
+        X = spiked_data(rng)
+        report = analyze_spectrum(X)
+        assert report.n_signal == SPIKES.size
+        spikes.append(report.spike_strengths)
+        overlaps.append(report.overlaps)
+        noise.append(report.noise_variance)
+        vectors = sample_spectrum(X).eigenvectors[:, : SPIKES.size]
+        realised.append(np.diag(vectors[: SPIKES.size]) ** 2)  # true axes e_j
+    spikes, overlaps, realised = map(np.array, (spikes, overlaps, realised))
+    se = spikes.std(axis=0, ddof=1) / np.sqrt(reps)
+    assert np.all(np.abs(spikes.mean(axis=0) - SPIKES) < 4 * se)
+    gap = overlaps - realised
+    se = gap.std(axis=0, ddof=1) / np.sqrt(reps)
+    assert np.all(np.abs(gap.mean(axis=0)) < 4 * se)
+    # limit overlaps at q = 1/4 (same formula, [computed])
+    q = n_features / 800
+    ell = SPIKES
+    limit = (1 - q / (ell - 1) ** 2) / (1 + q / (ell - 1))
+    se = overlaps.std(axis=0, ddof=1) / np.sqrt(reps)
+    assert np.all(np.abs(overlaps.mean(axis=0) - limit) < 4 * se)
+    # noise variance 1 within 4 se of the trace estimate, s2 sqrt(2/(n N))
+    assert abs(np.mean(noise) - 1.0) < 4 * np.sqrt(2 / (800 * 197)) / np.sqrt(reps)
+
+
+def test_report_agrees_with_its_parts(rng):
+    # [computed] the report is detect_signal + fit_bulk on the same spectrum.
+    X = spiked_data(rng, 301, 60)
+    report = analyze_spectrum(X, alpha=0.01)
+    spec = sample_spectrum(X)
+    test = detect_signal(spec.eigenvalues, spec.n_samples, 60, alpha=0.01)
+    fit = fit_bulk(spec.eigenvalues, spec.n_samples, 60, n_signal=test.n_signal)
+    assert report.n_signal == test.n_signal
+    np.testing.assert_array_equal(report.p_values, test.p_values)
+    assert report.noise_variance == fit.noise_variance
+    assert report.bulk_edge == fit.upper_edge
+    assert report.ratio == fit.ratio
+    assert report.threshold == test.threshold
+    assert report.n_samples == 300 and report.n_features == 60
+    np.testing.assert_array_equal(report.eigenvalues, spec.eigenvalues)
+
+
+def test_str_contains_the_numbers_and_caution(rng):
+    report = analyze_spectrum(spiked_data(rng, 301, 60))
+    text = str(report)
+    assert f"{report.noise_variance:.6g}" in text
+    assert f"{report.bulk_edge:.6g}" in text
+    for value, spike in zip(report.eigenvalues, report.spike_strengths, strict=False):
+        assert f"{value:12.6g}" in text
+        assert f"{spike:12.6g}" in text
+    assert "estimation risk" in text
+    assert "(noise)" in text
+
+
+def test_to_dict_is_json_serialisable(rng):
+    report = analyze_spectrum(spiked_data(rng, 301, 60))
+    data = report.to_dict()
+    back = json.loads(json.dumps(data))
+    assert back["n_signal"] == report.n_signal
+    assert back["spike_strengths"] == pytest.approx(list(report.spike_strengths))
+    assert set(back) == {f.name for f in dataclasses.fields(SpectrumReport)}
+    with pytest.raises(dataclasses.FrozenInstanceError):
+        report.n_signal = 0
+
+
+def test_weights_equal_repeated_rows(rng):
+    # [computed] an integer frequency weight counts a row that many times.
+    X = spiked_data(rng, 121, 30)
+    w = rng.integers(1, 4, size=X.shape[0])
+    weighted = analyze_spectrum(X, sample_weight=w)
+    repeated = analyze_spectrum(np.repeat(X, w, axis=0))
+    assert weighted.n_signal == repeated.n_signal
+    assert weighted.noise_variance == pytest.approx(repeated.noise_variance, rel=1e-8)
+    np.testing.assert_allclose(weighted.eigenvalues, repeated.eigenvalues, rtol=1e-9)
+
+
+def test_standardize_and_n_greater_than_t(rng):
+    X = spiked_data(rng, 61, 150) * rng.uniform(0.5, 3.0, size=150)
+    report = analyze_spectrum(X, standardize=True)
+    assert report.standardized
+    # correlation matrix: the trace is N [computed]
+    assert report.eigenvalues.sum() == pytest.approx(150, rel=1e-10)
+    assert report.eigenvalues.size == 60
+    assert "correlation" in str(report)
+
+
+@pytest.mark.parametrize(
+    "kwargs, match",
+    [
+        ({"alpha": 2.0}, "'alpha' parameter of analyze_spectrum"),
+        ({"constants": "x"}, "'constants' parameter of analyze_spectrum"),
+        ({"max_signal": -2}, "'max_signal' parameter of analyze_spectrum"),
+        ({"fix_ratio": 1}, "'fix_ratio' parameter of analyze_spectrum"),
+    ],
+)
+def test_validation(rng, kwargs, match):
+    with pytest.raises(ValueError, match=match):
+        analyze_spectrum(rng.standard_normal((40, 10)), **kwargs)
+
+
+def test_bad_data(rng):
+    X = rng.standard_normal((40, 10))
+    X[3, 2] = np.nan
+    with pytest.raises(ValueError):
+        analyze_spectrum(X)
+    with pytest.raises(ValueError, match="at least 3"):
+        analyze_spectrum(rng.standard_normal((3, 10)))
