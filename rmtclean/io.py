@@ -122,6 +122,9 @@ def read_table(path, *, index_col="auto"):
             frame = pd.read_csv(path, sep="\t" if kind == "tsv" else ",")
     except pd.errors.EmptyDataError:
         raise ValueError(f"The file {str(path)!r} has no data.") from None
+    except pd.errors.ParserError as exc:  # ragged or truncated rows, bad quoting
+        detail = " ".join(str(exc).split())
+        raise ValueError(f"Cannot parse {str(path)!r} as a table: {detail}") from exc
     except ImportError as exc:
         raise OSError(f"Cannot read {str(path)!r}: {exc}") from exc
     if frame.shape[1] == 0:
@@ -185,6 +188,17 @@ def numeric_matrix(frame, *, min_rows: int = 2, source: str = "the data"):
             f"{source} has {len(bad)} non-numeric column(s): {shown}. Every "
             "column must be a numeric variable (an index column of labels is "
             "detected when it comes first)."
+        )
+    # Complex columns count as numeric to pandas; casting would drop the
+    # imaginary parts silently.
+    complex_cols = [
+        str(c) for c in frame.columns if pd.api.types.is_complex_dtype(frame[c])
+    ]
+    if complex_cols:
+        shown = ", ".join(repr(c) for c in complex_cols[:3])
+        raise ValueError(
+            f"{source} has {len(complex_cols)} complex column(s): {shown}; only "
+            "real data are supported."
         )
     if frame.shape[0] < min_rows:
         raise ValueError(
