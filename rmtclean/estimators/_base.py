@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import warnings
+
 import numpy as np
 from sklearn.base import OneToOneFeatureMixin, TransformerMixin
 from sklearn.covariance import EmpiricalCovariance
@@ -15,6 +17,7 @@ from rmtclean._validation import (
     check_sample_weight,
 )
 from rmtclean.distributed import dask_sample_spectrum, is_dask_array
+from rmtclean.exceptions import RankDeficientWarning, WeakEstimateWarning
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import CleanedSpectrum, SampleSpectrum
 from rmtclean.weights import exponential_weights, kish_weights
@@ -70,6 +73,10 @@ _COMMON_DOC = """
 #: Cleaned eigenvalues of an incomplete-data fit are at least this times their
 #: mean, which makes the result positive definite.
 MISSING_FLOOR = 1e-8
+
+#: Fewer degrees of freedom than this leave no bulk to fit (as in
+#: rmtclean.rules.eigen_clip): the fit warns that its estimate is weak.
+WEAK_DOF = 3
 
 
 class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovariance):
@@ -153,6 +160,20 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         Returns
         -------
         self : object
+
+        Raises
+        ------
+        ValueError
+            Besides malformed input: when all rows are equal (all entries
+            zero with ``assume_centered``), as the sample covariance is zero.
+
+        Warns
+        -----
+        WeakEstimateWarning
+            With fewer than 3 degrees of freedom (no bulk to fit).
+        RankDeficientWarning
+            When sample eigenvalues the sample size allows are zero to
+            rounding (duplicated or collinear columns, repeated rows).
         """
         check_params(self)
         if is_dask_array(X):
@@ -169,8 +190,37 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
             route=self.route,
             keep_samples=self._needs_samples,
         )
+        self._warn_if_weak(spectrum)
         self._store(spectrum, self._clean(spectrum), X.dtype)
         return self
+
+    def _warn_if_weak(self, spectrum: SampleSpectrum) -> None:
+        """Warn when the data are legal but leave the estimate weak."""
+        owner = type(self).__name__
+        dof = spectrum.n_samples
+        if dof < WEAK_DOF:
+            warnings.warn(
+                f"{owner}.fit: only {dof:g} degree(s) of freedom (fewer than "
+                f"{WEAK_DOF}): the sample spectrum has no bulk to fit and the "
+                "cleaned covariance is a weak estimate.",
+                WeakEstimateWarning,
+                stacklevel=3,
+            )
+        vals = spectrum.eigenvalues
+        # Round-off zeros (numpy's matrix_rank tolerance) among the
+        # eigenvalues the sample size allows: duplicated or collinear
+        # columns, or repeated rows.
+        tol = vals[0] * max(spectrum.n_features, vals.size + 1) * np.finfo(float).eps
+        n_zero = int(np.count_nonzero(vals <= tol))
+        if vals[0] > 0 and n_zero:
+            warnings.warn(
+                f"{owner}.fit: the data are rank deficient beyond what the sample "
+                f"size explains: {n_zero} of the {vals.size} sample eigenvalues "
+                "it allows are zero (duplicated or collinear columns, or "
+                "repeated rows); the cleaned spectrum treats them as noise.",
+                RankDeficientWarning,
+                stacklevel=3,
+            )
 
     def _fit_dask(self, X, sample_weight):
         owner = type(self).__name__
@@ -188,6 +238,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
             route=self.route,
             owner=f"{owner}.fit",
         )
+        self._warn_if_weak(spectrum)
         self.n_features_in_ = int(X.shape[1])
         if hasattr(self, "feature_names_in_"):
             del self.feature_names_in_
@@ -251,7 +302,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
     def _validate_fit_data(self, X):
         allow_nan = self._missing_method() != "error"
         try:
-            return validate_data(
+            X = validate_data(
                 self,
                 X,
                 dtype=[np.float64, np.float32],
@@ -269,6 +320,22 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
                     "incomplete data."
                 ) from exc
             raise ValueError(f"{owner}.fit: {exc}") from exc
+        self._check_not_constant(X)
+        return X
+
+    def _check_not_constant(self, X) -> None:
+        """Refuse data whose sample covariance is zero (no covariance to clean)."""
+        if self.assume_centered:
+            constant = not np.any(X)
+            what = "every entry is zero (with assume_centered=True)"
+        else:
+            constant = bool(np.all(X == X[0]))
+            what = f"all {X.shape[0]} rows are equal (every column is constant)"
+        if constant:
+            raise ValueError(
+                f"{type(self).__name__}.fit: X has zero variance: {what}, so its "
+                "sample covariance is zero and there is nothing to clean."
+            )
 
     def _store(self, spectrum: SampleSpectrum, cleaned, dtype) -> None:
         n_features = spectrum.n_features
