@@ -13,6 +13,7 @@ __all__ = [
     "bisect_increasing",
     "check_positive",
     "finish",
+    "real_array",
     "uniform_draws",
 ]
 
@@ -21,6 +22,29 @@ def check_positive(value, name: str, owner: str) -> float:
     """Return ``value`` as a float after checking it is finite and > 0."""
     check_value(value, [Interval(float, 0.0, np.inf, closed="neither")], name, owner)
     return float(value)
+
+
+def real_array(x, name: str, owner: str) -> np.ndarray:
+    """``x`` as a float array; a TypeError naming the method for non-real input.
+
+    Strings, complex numbers and objects that are not numbers are refused
+    (numpy would convert numeric strings and fail inside with a message that
+    names neither the law nor the argument).
+    """
+    arr = np.asarray(x)
+    if arr.dtype.kind in "biuf":
+        return arr.astype(float, copy=False)
+    if arr.dtype.kind == "O":
+        try:
+            if all(isinstance(v, numbers.Real) for v in arr.ravel()):
+                return arr.astype(float)
+        except TypeError:
+            pass
+    kind = "complex" if arr.dtype.kind == "c" else f"dtype {arr.dtype}"
+    raise TypeError(
+        f"The {name!r} argument of {owner} must be real numbers. Got {kind} "
+        f"input {x!r:.60} instead."
+    )
 
 
 def finish(out: np.ndarray):

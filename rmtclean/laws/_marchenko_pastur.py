@@ -14,6 +14,7 @@ from rmtclean.laws._common import (
     bisect_increasing,
     check_positive,
     finish,
+    real_array,
 )
 
 __all__ = ["MarchenkoPastur"]
@@ -145,7 +146,7 @@ class MarchenkoPastur(InverseSampling):
 
     def pdf(self, x: ArrayLike):
         """Density of the continuous part (mass ``min(1, 1/ratio)``)."""
-        x = np.asarray(x, dtype=float)
+        x = real_array(x, "x", "MarchenkoPastur.pdf")
         a, b = self.support()
         inside = (x > a) & (x < b)
         xi = np.where(inside, x, 0.5 * (a + b))
@@ -189,7 +190,7 @@ class MarchenkoPastur(InverseSampling):
         return (below / norm).reshape(np.shape(x)), (above / norm).reshape(np.shape(x))
 
     def _cdf_sf(self, x: ArrayLike) -> tuple[np.ndarray, np.ndarray]:
-        x = np.asarray(x, dtype=float)
+        x = real_array(x, "x", "MarchenkoPastur.cdf/sf")
         below, above = self._tails(x)
         mass = 1.0 - self.atom
         low_half = x < 0.5 * sum(self.support())
@@ -213,7 +214,7 @@ class MarchenkoPastur(InverseSampling):
 
         NaN outside [0, 1].
         """
-        p = np.asarray(q, dtype=float)
+        p = real_array(q, "q", "MarchenkoPastur.ppf")
         a, b = self.support()
         out = bisect_increasing(self.cdf, p, a, b, deriv=self.pdf)
         out = np.where(p <= self.atom, 0.0, out) if self.atom > 0 else out
@@ -228,7 +229,7 @@ class MarchenkoPastur(InverseSampling):
         Accurate for tiny upper-tail probabilities (``ppf(1 - q)`` would round
         ``q`` away); 0 for ``q >= 1 - atom`` when ratio > 1. NaN outside [0, 1].
         """
-        q = np.asarray(q, dtype=float)
+        q = real_array(q, "q", "MarchenkoPastur.isf")
         a, b = self.support()
 
         def minus_sf(x):

@@ -14,6 +14,7 @@ from rmtclean.laws._common import (
     bisect_increasing,
     check_positive,
     finish,
+    real_array,
 )
 
 __all__ = ["WignerSemicircle"]
@@ -83,7 +84,7 @@ class WignerSemicircle(InverseSampling):
 
     def pdf(self, x: ArrayLike):
         """Density :math:`2\\sqrt{R^2 - x^2}/(\\pi R^2)` on the support."""
-        x = np.asarray(x, dtype=float)
+        x = real_array(x, "x", "WignerSemicircle.pdf")
         r = self.radius
         inside = np.abs(x) < r
         xi = np.where(inside, x, 0.0)
@@ -109,15 +110,15 @@ class WignerSemicircle(InverseSampling):
 
     def cdf(self, x: ArrayLike):
         """Distribution function."""
-        return finish(self._sf(-np.asarray(x, dtype=float)))
+        return finish(self._sf(-real_array(x, "x", "WignerSemicircle.cdf")))
 
     def sf(self, x: ArrayLike):
         """Survival function, accurate near the upper edge."""
-        return finish(self._sf(np.asarray(x, dtype=float)))
+        return finish(self._sf(real_array(x, "x", "WignerSemicircle.sf")))
 
     def ppf(self, q: ArrayLike):
         """Quantile function; NaN outside [0, 1]."""
-        p = np.asarray(q, dtype=float)
+        p = real_array(q, "q", "WignerSemicircle.ppf")
         out = bisect_increasing(self.cdf, p, -self.radius, self.radius, deriv=self.pdf)
         out = np.where(p == 0.0, -self.radius, np.where(p == 1.0, self.radius, out))
         return finish(np.where((p >= 0.0) & (p <= 1.0), out, np.nan))

@@ -12,7 +12,7 @@ from numpy.typing import ArrayLike
 from scipy.special import airye, roots_laguerre
 
 from rmtclean._validation import Interval, check_value
-from rmtclean.laws._common import InverseSampling, finish
+from rmtclean.laws._common import InverseSampling, finish, real_array
 
 __all__ = ["TracyWidom"]
 
@@ -103,7 +103,7 @@ def _logs(x: ArrayLike, beta: int, pdf_only: bool = False) -> np.ndarray:
     ``cdf + sf = 1`` and both keep their relative accuracy. With
     ``pdf_only`` the cdf and sf rows are left NaN inside the table.
     """
-    s = np.asarray(x, dtype=float)
+    s = real_array(x, "x", "TracyWidom")
     edges = _table()[0]
     out = np.full((3,) + s.shape, np.nan)
     inside = (s >= edges[0]) & (s <= edges[-1])
@@ -168,7 +168,7 @@ def _invert(logprob: np.ndarray, beta: int, upper: bool) -> np.ndarray:
 
 def _quantiles(p: ArrayLike, beta: int, *, from_sf: bool) -> np.ndarray:
     """Quantile function at p (``from_sf``: p is an upper-tail probability)."""
-    p = np.asarray(p, dtype=float)
+    p = real_array(p, "q", "TracyWidom.ppf/isf")
     q = 1.0 - p
     lower_p, upper_q = (q, p) if from_sf else (p, q)
     out = np.full(p.shape, np.nan)
