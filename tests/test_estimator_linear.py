@@ -1,12 +1,18 @@
 """Tests of the LinearShrink estimator."""
 
+import warnings
+
 import numpy as np
 import pytest
 from sklearn.covariance import OAS, LedoitWolf, ShrunkCovariance
 from sklearn.utils.estimator_checks import parametrize_with_checks
 
 from rmtclean.estimators import LinearShrink
-from rmtclean.exceptions import InvalidParameterError
+from rmtclean.exceptions import (
+    InvalidParameterError,
+    RankDeficientWarning,
+    WeakEstimateWarning,
+)
 from rmtclean.rules import linear_shrink, linear_shrink_covariance
 from tests.test_rule_linear import lw2004_intensity
 
@@ -273,6 +279,7 @@ def test_dataframe_feature_names_on_both_routes(rng, intensity):
     np.testing.assert_array_equal(est.feature_names_in_, list("abcd"))
 
 
+@pytest.mark.filterwarnings("ignore::rmtclean.exceptions.WeakEstimateWarning")
 @pytest.mark.parametrize("target", TARGETS)
 @pytest.mark.parametrize("scale", [1.0, 1e-150, 1e150])
 def test_two_rows_give_the_pseudo_inverse(rng, target, scale):
@@ -287,3 +294,32 @@ def test_two_rows_give_the_pseudo_inverse(rng, target, scale):
     _close(est.covariance_, S)
     pinv = np.linalg.pinv(S / scale**2, rcond=1e-10) / scale**2
     _close(est.precision_, pinv)
+
+
+def test_half_life_is_the_kish_weighted_fit(rng):
+    from rmtclean.weights import exponential_weights, kish_weights
+
+    T, N = 60, 7
+    X = _data(rng, T, N)
+    decayed = LinearShrink(half_life=15.0).fit(X)
+    weights = kish_weights(exponential_weights(T, 15.0), None)
+    weighted = LinearShrink().fit(X, sample_weight=weights)
+    assert decayed.shrinkage_ == pytest.approx(weighted.shrinkage_, rel=1e-12)
+    _close(decayed.covariance_, weighted.covariance_)
+    plain = LinearShrink().fit(X)
+    assert abs(decayed.shrinkage_ - plain.shrinkage_) > 1e-6
+
+
+@pytest.mark.parametrize("spectral", [False, True])
+def test_warnings_on_both_routes(rng, spectral):
+    weight = (lambda T: np.ones(T)) if spectral else (lambda T: None)
+    X = _data(rng, 40, 6)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")  # ordinary data: no warning
+        LinearShrink().fit(X, sample_weight=weight(40))
+    dup = np.c_[X, X[:, 0]]  # a duplicated column: S is singular
+    with pytest.warns(RankDeficientWarning, match="1 of the 7 sample eigenvalues"):
+        est = LinearShrink().fit(dup, sample_weight=weight(40))
+    assert ("spectrum_" in vars(est)) == spectral
+    with pytest.warns(WeakEstimateWarning, match="only 2 degree"):
+        LinearShrink().fit(X[:3, :2], sample_weight=weight(3))

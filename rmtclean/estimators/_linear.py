@@ -6,6 +6,7 @@ import numpy as np
 from scipy.linalg import lapack
 
 from rmtclean._validation import BOOLEAN, Interval, Options, check_params
+from rmtclean.distributed import is_dask_array
 from rmtclean.estimators._base import (
     DENSE_STORE_LIMIT,
     SpectralCovariance,
@@ -103,10 +104,12 @@ _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
     -----
     Two routes give the same estimate (tested against each other):
 
-    - Direct (unweighted, no ``standardize``, the dense route with a stored
-      ``covariance_``): one product ``X_c' X_c``, the intensity in O(N T)
-      (:func:`rmtclean.rules.shrinkage_intensity`), and ``precision_`` by a
-      Cholesky inverse. No eigendecomposition is computed at fit:
+    - Direct (no weights or ``half_life``, no ``standardize``, at least N
+      degrees of freedom, the dense route with a stored ``covariance_``):
+      one product ``X_c' X_c``, the intensity in O(N T)
+      (:func:`rmtclean.rules.shrinkage_intensity`), ``precision_`` by a
+      Cholesky inverse, and a pivoted Cholesky factor of ``S`` for the
+      rank-deficiency warning. No eigendecomposition is computed at fit:
       ``spectrum_``, ``eigenvalues_``, ``eigenvectors_`` and
       ``sample_eigenvalues_`` are computed on first use (one ``eigh`` of
       ``covariance_``; ``S`` is recovered as ``(covariance_ - delta F) /
@@ -121,6 +124,10 @@ _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
       so N > T needs no N x N matrix (``route="gram"``). The other targets
       form ``S`` and ``F`` densely (N x N memory for any ``route``) and
       diagonalise the shrunk matrix to serve ``spectrum_``.
+
+    Missing data (the base's ``missing``) are not supported: the
+    Ledoit-Wolf intensity needs complete rows. ``half_life`` acts through
+    its frequency weights, as ``sample_weight``.
 
     References
     ----------
@@ -149,7 +156,10 @@ _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
 
 
 class LinearShrink(SpectralCovariance):
-    __doc__ = _DOC.replace("%(common)s", common_params_doc().rstrip("\n"))
+    # The base's parameters, less ``missing``, which LinearShrink does not take.
+    __doc__ = _DOC.replace(
+        "%(common)s", common_params_doc().split("    missing :")[0].rstrip("\n") + "\n"
+    )
 
     _parameter_specs: dict = {
         "target": [Options(SHRINKAGE_TARGETS)],
@@ -172,6 +182,7 @@ class LinearShrink(SpectralCovariance):
         standardize=False,
         route="auto",
         store_covariance="auto",
+        half_life=None,
     ):
         super().__init__(
             store_precision=store_precision,
@@ -179,6 +190,7 @@ class LinearShrink(SpectralCovariance):
             standardize=standardize,
             route=route,
             store_covariance=store_covariance,
+            half_life=half_life,
         )
         self.target = target
         self.intensity = intensity
@@ -188,7 +200,8 @@ class LinearShrink(SpectralCovariance):
         """Fit the shrunk covariance to ``X``; see :meth:`SpectralCovariance.fit`."""
         check_params(self)
         _check_combination(self.target, self.intensity, type(self).__name__)
-        if sample_weight is None and not self.standardize:
+        plain = sample_weight is None and self.half_life is None
+        if plain and not self.standardize and not is_dask_array(X):
             Xv = self._validate_fit_data(X)
             if self._direct_route(Xv.shape) and self._fit_direct(Xv):
                 return self
@@ -218,7 +231,7 @@ class LinearShrink(SpectralCovariance):
         return route == "dense" and bool(store)
 
     def _shrunk(self, Xc, weights, n):
-        """``(delta, (1 - delta) S + delta F)`` for centred rows and divisor n."""
+        """``(delta, S, (1 - delta) S + delta F)`` for centred rows and divisor n."""
         Z = Xc if weights is None else Xc * np.sqrt(weights)[:, None]
         S = Z.T @ Z
         S /= n
@@ -229,7 +242,7 @@ class LinearShrink(SpectralCovariance):
             )
         else:
             delta = float(self.intensity)
-        return delta, _combine(S, _target(S, self.target), delta)
+        return delta, S, _combine(S, _target(S, self.target), delta)
 
     def _fit_direct(self, X) -> bool:
         """One X'X, the O(N T) intensity and a Cholesky inverse; no eigh.
@@ -245,10 +258,15 @@ class LinearShrink(SpectralCovariance):
         else:
             location = X64.mean(axis=0)
             Xc = X64 - location
-        n = self._divisor(float(n_rows if self.assume_centered else n_rows - 1))
-        delta, cov = self._shrunk(Xc, None, n)
+        dof = float(n_rows if self.assume_centered else n_rows - 1)
+        if dof < X64.shape[1]:  # rank deficient by design: spectral route
+            return False
+        n = self._divisor(dof)
+        delta, S, cov = self._shrunk(Xc, None, n)
         if not 0.0 < delta < 1.0:
             return False
+        self._warn_if_weak(_RankOnly(S, dof))  # overwrites S
+        del S
         precision = None
         if self.store_precision:
             precision = _spd_inverse(cov)
@@ -295,8 +313,25 @@ class LinearShrink(SpectralCovariance):
             )
             self.shrinkage_ = out.details["intensity"]
             return CleanedEigenvalues(out.values, null_value=out.null_value)
-        self.shrinkage_, cov = self._shrunk(Xc, w, n)
+        self.shrinkage_, _, cov = self._shrunk(Xc, w, n)
         return _dense_spectrum(cov, scale=spectrum.scale)
+
+
+class _RankOnly:
+    """What the base's weak-estimate warnings read from a sample spectrum,
+    for a sample covariance S of full expected rank (dof >= N) without its
+    eigendecomposition: the numerical rank from a pivoted Cholesky factor
+    (LAPACK dpstrf, pivots at or below N eps max_i s_ii count as zero),
+    given as eigenvalues 1 (rank many) and 0. S is overwritten."""
+
+    def __init__(self, S: np.ndarray, dof: float):
+        n_features = S.shape[0]
+        tol = max(float(np.max(np.diagonal(S))), 0.0) * n_features * np.finfo(float).eps
+        # S is symmetric, so S.T is its Fortran-ordered view: factor in place.
+        rank = int(lapack.dpstrf(S.T, tol=tol, lower=1, overwrite_a=1)[2])
+        self.n_samples = dof
+        self.n_features = n_features
+        self.eigenvalues = np.r_[np.ones(rank), np.zeros(n_features - rank)]
 
 
 def _dense_spectrum(cov: np.ndarray, scale=None) -> CleanedSpectrum:
