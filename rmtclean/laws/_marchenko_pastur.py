@@ -178,14 +178,25 @@ class MarchenkoPastur(InverseSampling):
             - root
             - 2.0 * sqrt_ab * np.arctan2(sa * np.sin(theta / 2), sb * np.cos(theta / 2))
         )
+        r = 0.5 * (b - a)
+        nodes, weights = np.polynomial.legendre.leggauss(8)
         near = theta < 0.1  # there the closed form loses eps / theta^2 relative
         if np.any(near):
-            r = 0.5 * (b - a)
-            nodes, weights = np.polynomial.legendre.leggauss(8)
             th = theta[near][..., None]
             u = 0.5 * th * (nodes + 1.0)
             integrand = r * r * np.sin(u) ** 2 / (m + r * np.cos(u))
             above[near] = 0.5 * th[..., 0] * (integrand @ weights)
+        # The mirror formula at the lower edge, where the closed form loses
+        # about eps a / (r phi)^2 relative (negative and non-monotone cdf
+        # for small ratios); only where the integrand, whose denominator
+        # a + 2 r sin^2(u/2) is written without cancellation, varies on a
+        # scale wider than phi (r phi^2 < 2a), which 8 nodes resolve.
+        near = (phi < 0.1) & (r * phi * phi < 2.0 * a)
+        if np.any(near):
+            ph = phi[near][..., None]
+            u = 0.5 * ph * (nodes + 1.0)
+            integrand = r * r * np.sin(u) ** 2 / (a + 2.0 * r * np.sin(0.5 * u) ** 2)
+            below[near] = 0.5 * ph[..., 0] * (integrand @ weights)
         norm = 2.0 * np.pi * self.variance * self.ratio
         return (below / norm).reshape(np.shape(x)), (above / norm).reshape(np.shape(x))
 
