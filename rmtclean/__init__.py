@@ -1,6 +1,7 @@
 """rmtclean: clean large sample covariance matrices with random-matrix theory."""
 
 from rmtclean.estimators import (
+    EigenClip,
     LinearShrink,
     SpectralCovariance,
     SpikeShrink,
@@ -21,6 +22,7 @@ __all__ = sorted(
     [
         "CleanedEigenvalues",
         "CleanedSpectrum",
+        "EigenClip",
         "LinearShrink",
         "SampleSpectrum",
         "SpectrumReport",

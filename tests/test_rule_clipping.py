@@ -3,6 +3,7 @@
 import numpy as np
 import pytest
 
+from rmtclean.exceptions import WeakEstimateWarning
 from rmtclean.rules import CleanedEigenvalues, eigen_clip
 from rmtclean.spectrum import detect_signal, fit_bulk
 from tests._spectra import one_blas_thread
@@ -63,14 +64,17 @@ def test_edges_find_the_planted_spikes(rng, n_rows, n_features, spikes):
     assert tw.details["noise_variance"] == test.noise_variance
 
 
-def test_bulk_fit_edge_is_self_consistent(rng):
-    # The kept count equals the count above the upper edge of the bulk fitted
-    # without the kept eigenvalues (Laloux et al. 1999, item 9, from memory).
+def test_bulk_fit_edge_is_the_fitted_upper_edge(rng):
+    # Laloux et al. 1999 (item 9, from memory): keep what lies above the upper
+    # edge of the MP law fitted to the spectrum; the noise variance reported
+    # is the fit with the kept eigenvalues set aside [computed: fit_bulk].
     eig, dof = spiked_spectrum(rng, 301, 60, spikes=(40.0, 25.0, 15.0))
     out = eigen_clip(eig, dof, 60, edge="bulk-fit")
-    fit = fit_bulk(eig, dof, 60, n_signal=out.n_signal)
-    assert out.details["edge"] == pytest.approx(fit.upper_edge)
-    assert out.n_signal == np.count_nonzero(eig > fit.upper_edge)
+    edge = fit_bulk(eig, dof, 60).upper_edge
+    assert out.details["edge"] == edge
+    assert out.n_signal == np.count_nonzero(eig > edge)
+    refit = fit_bulk(eig, dof, 60, n_signal=out.n_signal)
+    assert out.details["noise_variance"] == refit.noise_variance
 
 
 def test_float_edge_and_n_keep(rng):
@@ -83,6 +87,8 @@ def test_float_edge_and_n_keep(rng):
     none = eigen_clip(eig, dof, 60, n_keep=0)
     # [computed] all replaced by the mean: tr(S) / N
     np.testing.assert_allclose(none.values, eig.sum() / 60, rtol=1e-12)
+    # n_keep beyond n_components - 1 is capped: with N <= n, the sample spectrum
+    np.testing.assert_array_equal(eigen_clip(eig, dof, 60, n_keep=99).values, eig)
     # a float edge below every eigenvalue still clips the last one
     assert eigen_clip(eig, dof, 60, edge=0.0).n_signal == eig.size - 1
 
@@ -113,6 +119,19 @@ def test_n_greater_than_t_null_value(rng):
     assert out.null_value > 0
 
 
+@pytest.mark.parametrize("edge", ["bulk-fit", "tracy-widom"])
+def test_rounding_zeros_are_null_space(rng, edge):
+    # Zeros at rounding level (repeated rows, collinear columns) are treated as
+    # null space: padding the spectrum with them changes nothing [computed].
+    eig, dof = spiked_spectrum(rng, 41, 120, spikes=(300.0, 150.0))
+    padded = np.r_[eig, np.full(20, 1e-17 * eig[0])]
+    base = eigen_clip(eig, dof + 20, 120, edge=edge)
+    out = eigen_clip(padded, dof + 20, 120, edge=edge)
+    assert out.n_signal == base.n_signal
+    np.testing.assert_allclose(out.values[: eig.size], base.values, rtol=1e-12)
+    np.testing.assert_allclose(out.values[eig.size :], base.null_value, rtol=1e-12)
+
+
 def test_input_not_modified(rng):
     eig, dof = spiked_spectrum(rng, 101, 30)
     copy = eig.copy()
@@ -126,7 +145,6 @@ def test_input_not_modified(rng):
         ({"edge": "median"}, "'edge' parameter of eigen_clip"),
         ({"edge": -1.0}, "'edge' parameter of eigen_clip"),
         ({"edge": np.nan}, "'edge' parameter of eigen_clip"),
-        ({"n_keep": 10}, "'n_keep' parameter of eigen_clip"),
         ({"n_keep": -1}, "'n_keep' parameter of eigen_clip"),
         ({"n_keep": 1.5}, "'n_keep' parameter of eigen_clip"),
         ({"alpha": 1.0}, "'alpha' parameter of eigen_clip"),
@@ -142,6 +160,8 @@ def test_validation(kwargs, match):
 def test_validation_of_eigenvalues():
     with pytest.raises(ValueError, match="finite"):
         eigen_clip([5.0, np.nan, 1.0], 50, 10)
-    with pytest.raises(ValueError, match="at least 3 eigenvalues"):
-        eigen_clip([5.0, 1.0], 50, 10)
+    with pytest.warns(WeakEstimateWarning, match="at least 3 nonzero"):
+        out = eigen_clip([5.0, 1.0], 50, 10)
+    assert out.n_signal == 0
+    np.testing.assert_allclose(out.values, 0.6)  # [computed] 6 / 10
     assert eigen_clip([5.0, 1.0], 50, 10, n_keep=1).n_signal == 1

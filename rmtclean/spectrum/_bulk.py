@@ -172,6 +172,17 @@ def _check_n_signal(n_signal, n_components: int, n_samples: float, function: str
     return int(n_signal)
 
 
+def _numerical_rank(values: np.ndarray, n_samples: float) -> int:
+    """Number of eigenvalues above rounding error (the rest are exact zeros).
+
+    Repeated rows or collinear columns leave zeros in the stored spectrum
+    that are only rounding error (numpy's ``matrix_rank`` tolerance, squared
+    singular values: ``max(N, n) eps`` times the largest eigenvalue).
+    """
+    tol = values[0] * max(values.size, n_samples) * np.finfo(np.float64).eps
+    return int(np.count_nonzero(values > tol))
+
+
 # --------------------------------------------------------------------------
 # the bulk model
 
@@ -286,7 +297,8 @@ def fit_bulk(
         Sample eigenvalues in descending order: the nonzero part of the
         spectrum, ``n_components = min(n_features, n_samples)``; when
         ``n_features > n_samples`` the remaining eigenvalues are implicit
-        zeros.
+        zeros. Values at rounding-error level (repeated rows, collinear
+        columns) are treated as such zeros and not fitted.
     n_samples : float
         Degrees of freedom of the sample covariance (``T - 1`` after
         demeaning, ``T`` if the data were centred).
@@ -362,6 +374,8 @@ def fit_bulk(
     function = "fit_bulk"
     n_samples, n_features = _check_sizes(n_samples, n_features, function)
     values = _check_eigenvalues(eigenvalues, n_features, function)
+    # rounding-error zeros (repeated rows, collinear columns) are null space
+    values = values[: _numerical_rank(values, n_samples)]
     n_signal = _check_n_signal(n_signal, values.size, n_samples, function)
     if not isinstance(fix_ratio, (bool, np.bool_)):
         raise ValueError(

@@ -9,7 +9,12 @@ from numbers import Integral, Real
 
 import numpy as np
 
-from rmtclean.spectrum._bulk import _bulk_sizes, _check_eigenvalues, _check_sizes
+from rmtclean.spectrum._bulk import (
+    _bulk_sizes,
+    _check_eigenvalues,
+    _check_sizes,
+    _numerical_rank,
+)
 
 __all__ = ["EdgeTest", "detect_signal"]
 
@@ -252,7 +257,9 @@ def detect_signal(
         least one signal eigenvalue is close to ``alpha``.
     max_signal : int or None, default=None
         Largest number of signal eigenvalues to declare; ``None`` allows up
-        to ``n_components - 1``.
+        to ``n_components - 1``. Eigenvalues at rounding-error level
+        (repeated rows, collinear columns) count as null space and are not
+        tested.
     constants : {"half-integer", "johnstone"}, default="half-integer"
         Centring and scaling of the largest eigenvalue: ``"half-integer"``
         uses ``(n - 1/2, N - 1/2)`` (Ma 2012, as recalled), ``"johnstone"``
@@ -350,6 +357,8 @@ def detect_signal(
     function = "detect_signal"
     n_samples, n_features = _check_sizes(n_samples, n_features, function)
     values = _check_eigenvalues(eigenvalues, n_features, function)
+    # rounding-error zeros (repeated rows, collinear columns) are null space
+    values = values[: _numerical_rank(values, n_samples)]
     alpha = _check_alpha(alpha, function)
     max_signal, s2 = _check_edge_options(
         values, n_samples, max_signal, constants, noise_variance, function

@@ -7,7 +7,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from rmtclean.spectrum._bulk import _fit_bulk
+from rmtclean.spectrum._bulk import _fit_bulk, _numerical_rank
 from rmtclean.spectrum._edge import (
     DEFAULT_CONSTANTS,
     _check_alpha,
@@ -206,7 +206,9 @@ def analyze_spectrum(
         sample_weight=sample_weight,
         standardize=standardize,
     )
-    values, n, n_features = spec.eigenvalues, float(spec.n_samples), spec.n_features
+    n, n_features = float(spec.n_samples), spec.n_features
+    # rounding-error zeros (repeated rows, collinear columns) are null space
+    values = spec.eigenvalues[: _numerical_rank(spec.eigenvalues, n)]
     if values.size < 3 or math.ceil(n) < 3:
         raise ValueError(
             f"{function} needs at least 3 nonzero sample eigenvalues and 3 degrees "
@@ -234,7 +236,7 @@ def analyze_spectrum(
         statistics=test.statistics,
         spike_strengths=spikes.spikes,
         overlaps=spikes.overlaps,
-        eigenvalues=values.copy(),
+        eigenvalues=spec.eigenvalues.copy(),
         bulk_statistic=fit.statistic,
         n_samples=n,
         n_features=int(n_features),

@@ -1,0 +1,142 @@
+"""EigenClip: eigenvalue clipping as a scikit-learn estimator."""
+
+from __future__ import annotations
+
+from rmtclean._validation import Interval, Options
+from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.rules._clipping import eigen_clip
+from rmtclean.rules._types import CleanedEigenvalues
+from rmtclean.spectrum import SampleSpectrum
+
+__all__ = ["EigenClip"]
+
+_DOC = r"""Covariance with the noise eigenvalues clipped to their mean.
+
+    The sample eigenvalues above the noise edge are kept with their
+    eigenvectors; all the others, the null space included when N exceeds
+    the degrees of freedom, are replaced by their mean, so the trace is
+    unchanged (Laloux, Cizeau, Bouchaud & Potters 1999). See
+    :func:`rmtclean.rules.eigen_clip`.
+
+    Parameters
+    ----------
+    edge : {"bulk-fit", "tracy-widom"} or float, default="bulk-fit"
+        Where the noise ends: the upper edge of the Marchenko-Pastur law
+        fitted to the bulk (``"bulk-fit"``), the count of the sequential
+        Tracy-Widom tests at level ``alpha`` (``"tracy-widom"``), or a fixed
+        eigenvalue level (of the correlation matrix when ``standardize``).
+    alpha : float, default=0.05
+        Level of the Tracy-Widom tests (``edge="tracy-widom"`` only).
+    n_keep : int or None, default=None
+        Keep exactly the ``n_keep`` largest eigenvalues; overrides ``edge``.
+%(common)s
+    Attributes
+    ----------
+    covariance_ : ndarray of shape (n_features, n_features) or None
+        The cleaned covariance (None when not stored densely).
+    precision_ : ndarray of shape (n_features, n_features) or None
+        Its inverse (when stored).
+    location_ : ndarray of shape (n_features,)
+        The column means (zeros when ``assume_centered``).
+    spectrum_ : CleanedSpectrum
+        The cleaned covariance in spectral form.
+    sample_eigenvalues_ : ndarray of shape (n_features,)
+        Descending sample eigenvalues (of the correlation when
+        ``standardize``), the null space's zeros last.
+    eigenvalues_ : ndarray of shape (n_features,)
+        The cleaned eigenvalues, paired with ``sample_eigenvalues_``: the
+        ``n_signal_`` kept ones, then ``bulk_mean_``.
+    eigenvectors_ : ndarray of shape (n_features, n_components)
+        The sample eigenvectors.
+    n_signal_ : int
+        Number of eigenvalues kept.
+    edge_ : float or str
+        The edge used: an eigenvalue level, or ``"n_keep"``.
+    bulk_mean_ : float
+        The value given to every clipped eigenvalue.
+    noise_variance_ : float or None
+        The fitted noise variance for a fitted edge, else None.
+    scale_ : ndarray of shape (n_features,) or None
+        Column standard deviations when ``standardize``.
+    degrees_of_freedom_ : float
+        Degrees of freedom of the sample covariance.
+    n_features_in_ : int
+    feature_names_in_ : ndarray of shape (n_features_in_,)
+
+    See Also
+    --------
+    rmtclean.rules.eigen_clip : the same on arrays.
+    rmtclean.analyze_spectrum : the noise level, edge and spikes as a report.
+
+    References
+    ----------
+    .. [1] L. Laloux, P. Cizeau, J.-P. Bouchaud and M. Potters, "Noise
+       dressing of financial correlation matrices", Phys. Rev. Lett. 83(7),
+       1467-1470, 1999.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from rmtclean.estimators import EigenClip
+    >>> rng = np.random.default_rng(0)
+    >>> X = rng.standard_normal((300, 60)) * np.r_[5.0, 4.0, np.ones(58)]
+    >>> est = EigenClip(edge="tracy-widom").fit(X)
+    >>> est.n_signal_
+    2
+    >>> bool(np.isclose(np.trace(est.covariance_), np.trace(np.cov(X.T))))
+    True
+    """
+
+
+class EigenClip(SpectralCovariance):
+    __doc__ = _DOC.replace("%(common)s", common_params_doc().rstrip("\n"))
+
+    _parameter_specs: dict = {
+        "edge": [
+            Options({"bulk-fit", "tracy-widom"}),
+            Interval(float, 0.0, None, closed="left"),
+        ],
+        "alpha": [Interval(float, 0.0, 1.0, closed="neither")],
+        "n_keep": [None, Interval(int, 0, None, closed="left")],
+    }
+
+    def __init__(
+        self,
+        *,
+        edge="bulk-fit",
+        alpha=0.05,
+        n_keep=None,
+        store_precision=True,
+        assume_centered=False,
+        standardize=False,
+        route="auto",
+        store_covariance="auto",
+        half_life=None,
+        missing="error",
+    ):
+        super().__init__(
+            store_precision=store_precision,
+            assume_centered=assume_centered,
+            standardize=standardize,
+            route=route,
+            store_covariance=store_covariance,
+            half_life=half_life,
+            missing=missing,
+        )
+        self.edge = edge
+        self.alpha = alpha
+        self.n_keep = n_keep
+
+    def _clean(self, spectrum: SampleSpectrum) -> CleanedEigenvalues:
+        out = eigen_clip(
+            spectrum.eigenvalues,
+            spectrum.n_samples,
+            spectrum.n_features,
+            edge=self.edge,
+            n_keep=self.n_keep,
+            alpha=self.alpha,
+        )
+        self.edge_ = out.details["edge"]
+        self.bulk_mean_ = out.details["bulk_mean"]
+        self.noise_variance_ = out.details.get("noise_variance")
+        return out
