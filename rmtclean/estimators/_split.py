@@ -12,6 +12,7 @@ from rmtclean.estimators._base import SpectralCovariance, common_params_doc
 from rmtclean.rules._split import (
     NULL_SPACE_METHODS,
     _generator,
+    _pool_ties,
     _prepare,
     _split_diagonal,
     _train_size_rows,
@@ -174,6 +175,9 @@ class SplitShrink(SpectralCovariance):
             X, w, spectrum.eigenvectors, splits, self.assume_centered,
             self.null_space,
         )  # fmt: skip
+        values, null_value = _pool_ties(
+            values, null_value, spectrum.eigenvalues, spectrum.n_features
+        )
         self.train_size_ = int(details["train_size"])
         self.train_size_criterion_ = details.get("train_size_criterion")
         return CleanedEigenvalues(values, null_value, None, details)

@@ -201,6 +201,41 @@ def _split_diagonal(
     return values, float(max(null_value, 0.0))
 
 
+def _pool_ties(
+    values: np.ndarray,
+    null_value: float | None,
+    eigenvalues: np.ndarray,
+    n_features: int,
+) -> tuple[np.ndarray, float | None]:
+    """Give tied sample eigenvalues one value: the mean of theirs.
+
+    The eigenvectors of a repeated eigenvalue are any basis of its
+    eigenspace, and ``u_i' Sigma_{m,M} u_i`` depends on the basis the solver
+    picks; the mean over the group is ``tr(P Sigma_{m,M}) / dim`` for the
+    eigenspace's projector ``P``, which does not (the rotation-invariant
+    estimator closest to ``Sigma_{m,M}`` when eigenvalues repeat). Ties are
+    gaps within rounding of the largest eigenvalue; zero eigenvalues also
+    tie with the null space, which they join.
+    """
+    values = np.array(values, dtype=np.float64)
+    if values.size == 0:
+        return values, null_value
+    tol = 8.0 * max(n_features, values.size) * np.finfo(np.float64).eps
+    tol *= float(eigenvalues[0])
+    start = 0
+    for stop in range(1, values.size + 1):
+        if stop == values.size or eigenvalues[stop - 1] - eigenvalues[stop] > tol:
+            values[start:stop] = values[start:stop].mean()
+            start = stop
+    n_null = n_features - values.size
+    zero = eigenvalues <= tol
+    if n_null and null_value is not None and np.any(zero):
+        pooled = (values[zero].sum() + n_null * null_value) / (zero.sum() + n_null)
+        values[zero] = pooled
+        null_value = float(pooled)
+    return values, null_value
+
+
 def _split_matrix(
     X: np.ndarray, w, splits, assume_centered: bool, null_space: str
 ) -> np.ndarray:
@@ -422,7 +457,10 @@ def split_shrink(
     -----
     The values are not sorted and need not decrease. They are non-negative,
     and their sum plus the null-space total is the average of
-    :math:`\operatorname{{tr}} S_2` over the splits.
+    :math:`\operatorname{{tr}} S_2` over the splits. When the eigenvectors
+    are computed here, tied sample eigenvalues (to rounding) get the mean of
+    their values, and zero ones join the null space: their eigenvectors are
+    an arbitrary basis of the eigenspace, the mean is basis-free.
 
     References
     ----------
@@ -448,10 +486,12 @@ def split_shrink(
         X, sample_weight, train_size, n_splits, shuffle, random_state,
         assume_centered, null_space, owner,
     )  # fmt: skip
+    sample = None
     if eigenvectors is None:
-        eigenvectors = SampleSpectrum.from_data(
+        spectrum = SampleSpectrum.from_data(
             X, assume_centered=assume_centered, sample_weight=w
-        ).eigenvectors
+        )
+        eigenvectors, sample = spectrum.eigenvectors, spectrum.eigenvalues
     else:
         eigenvectors = _check_eigenvectors(eigenvectors, X.shape[1], owner)
     splits, details = _prepare(
@@ -460,6 +500,8 @@ def split_shrink(
     values, null_value = _split_diagonal(
         X, w, eigenvectors, splits, assume_centered, null_space
     )
+    if sample is not None:
+        values, null_value = _pool_ties(values, null_value, sample, X.shape[1])
     return CleanedEigenvalues(values, null_value, None, details)
 
 
