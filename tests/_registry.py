@@ -25,6 +25,10 @@ What each case promises is read from its documentation:
   compared more loosely. Unknown cleaners count as fitted.
 - ``varying_columns``: a zero-variance column is refused (the
   constant-correlation target divides by the column scales).
+- ``warns_rank_deficient``: the fit diagonalises the sample covariance and
+  says when eigenvalues the sample size allows are zero. LinearShrink's
+  direct dense route computes no eigendecomposition at fit (its Notes), and
+  collinearity does not weaken a linear shrinkage.
 """
 
 from __future__ import annotations
@@ -73,6 +77,7 @@ class Case:
     min_rows: int = 2
     closed_form: bool = False
     varying_columns: bool = False
+    warns_rank_deficient: bool = True
 
     @property
     def rtol(self) -> float:
@@ -104,7 +109,7 @@ FITTED_RTOL = 1e-6
 
 # Guarantees by class name, applied only to the estimators that are exported.
 _KNOWN = {
-    "LinearShrink": {"closed_form": True},
+    "LinearShrink": {"closed_form": True, "warns_rank_deficient": False},
     "SplitShrink": {"semidefinite": True, "min_rows": 8, "closed_form": True},
     "EigenClip": {"trace_preserving": True},
 }
