@@ -87,10 +87,12 @@ def _load_returns(args):
 def _check_complete(frame, args, source: str) -> None:
     n_missing = int(frame.isna().to_numpy().sum())
     if n_missing and getattr(args, "missing", None) is None:
-        raise ValueError(
-            f"{source} has {n_missing} missing value(s); pass --missing pairwise "
-            "or --missing em to estimate from incomplete data."
+        hint = (
+            "pass --missing pairwise or --missing em to estimate from incomplete data"
+            if hasattr(args, "missing")
+            else "fill or drop them first (rmtclean clean accepts --missing)"
         )
+        raise ValueError(f"{source} has {n_missing} missing value(s); {hint}.")
 
 
 def _build_estimator(args):
@@ -247,12 +249,6 @@ def _add_data_arguments(parser) -> None:
         action="store_true",
         help="skip the price check (positive data moving in small steps)",
     )
-    parser.add_argument(
-        "--missing",
-        choices=("pairwise", "em"),
-        help="estimate from incomplete data (NaN or empty cells): pairwise "
-        "deletion or Gaussian EM; default: refuse missing values",
-    )
 
 
 def _add_data_parsers(sub) -> None:
@@ -272,6 +268,12 @@ def _add_data_parsers(sub) -> None:
         "--standardize --out corr.csv --report spectrum.png",
     )
     _add_data_arguments(clean)
+    clean.add_argument(
+        "--missing",
+        choices=("pairwise", "em"),
+        help="estimate from incomplete data (NaN or empty cells): pairwise "
+        "deletion or Gaussian EM; default: refuse missing values",
+    )
     clean.add_argument(
         "--method",
         required=True,
