@@ -1,6 +1,7 @@
 """Rules: pure functions from a sample spectrum to cleaned eigenvalues."""
 
 from rmtclean.rules._clipping import eigen_clip
+from rmtclean.rules._kernel import KERNEL_ENGINES, KERNEL_FORMULAS, kernel_shrink
 from rmtclean.rules._linear import (
     INTENSITY_METHODS,
     SHRINKAGE_TARGETS,
@@ -15,6 +16,7 @@ from rmtclean.rules._spiked import (
     spike_shrink,
 )
 from rmtclean.rules._split import NULL_SPACE_METHODS, split_covariance, split_shrink
+from rmtclean.rules._stieltjes import stieltjes_shrink
 from rmtclean.rules._types import CleanedEigenvalues
 
 __all__ = sorted(
@@ -33,5 +35,9 @@ __all__ = sorted(
         "SPIKE_SHRINKERS",
         "optimal_hard_threshold",
         "spike_shrink",
+        "KERNEL_ENGINES",
+        "KERNEL_FORMULAS",
+        "kernel_shrink",
+        "stieltjes_shrink",
     ]
 )

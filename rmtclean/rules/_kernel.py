@@ -1,0 +1,361 @@
+r"""Analytical nonlinear shrinkage (Ledoit & Wolf 2020).
+
+Three layers: the private cores :func:`_density_hilbert` (the kernel sums,
+numba or numpy) and :func:`_kernel_shrink`, the public validated
+:func:`kernel_shrink`, and the estimator
+:class:`rmtclean.estimators.KernelShrink`.
+"""
+
+from __future__ import annotations
+
+import math
+import numbers
+
+import numpy as np
+
+from rmtclean import _kernels
+from rmtclean._data import check_eigenvalues
+from rmtclean.rules._types import CleanedEigenvalues
+
+__all__ = ["KERNEL_ENGINES", "KERNEL_FORMULAS", "kernel_shrink"]
+
+#: Implementations of the kernel sums.
+KERNEL_ENGINES = ("numba", "numpy")
+#: "published": Ledoit & Wolf (2020) exactly; "stabilized": the same away
+#: from N/T = 1, with the remedy of the Notes of :func:`kernel_shrink` near it.
+KERNEL_FORMULAS = ("stabilized", "published")
+
+_SQRT5 = math.sqrt(5.0)
+# Row blocks of the numpy engine hold at most this many pairs (32 MB each).
+_NUMPY_BLOCK_PAIRS = 4_000_000
+
+
+# -- the kernel sums -------------------------------------------------------
+def _near_windows(x: np.ndarray, centres_desc: np.ndarray, h: float):
+    """Index windows holding the near pairs of the numba kernel.
+
+    With ``h_j = h c_j`` and ``c`` descending, the pairs with
+    ``|x - c_j| < SERIES_CUT h_j`` have ``c_j`` in
+    ``(x / (1 + cut h), x / (1 - cut h))``: a contiguous range, widened by
+    1% so that rounding never leaves a near pair outside (the kernel checks
+    anyway).
+    """
+    cut = _kernels.SERIES_CUT * h
+    m = centres_desc.size
+    asc = centres_desc[::-1]
+    low = x / (1.0 + 1.01 * cut)
+    high = x / (1.0 - 1.01 * cut) if 1.01 * cut < 1.0 else np.full_like(x, np.inf)
+    a = np.searchsorted(asc, low, side="left")
+    b = np.searchsorted(asc, high, side="right")
+    return (m - b).astype(np.int64), (m - a).astype(np.int64)
+
+
+def _hilbert_numpy(u: np.ndarray) -> np.ndarray:
+    """H_k(u) on an array, with the kernel's split (series for |u| >= cut)."""
+    au = np.abs(u)
+    far = au >= _kernels.SERIES_CUT
+    out = np.empty_like(u)
+    uf = u[far]
+    w = 5.0 / (uf * uf)
+    coef = 3.0 / ((2.0 * np.arange(14) + 1.0) * (2.0 * np.arange(14) + 3.0))
+    series = np.zeros_like(w)
+    for c in coef[::-1]:
+        series = series * w + c
+    out[far] = -series / (np.pi * uf)
+    un = u[~far]
+    lin = -0.3 * un / np.pi
+    with np.errstate(divide="ignore", invalid="ignore"):
+        log_term = (
+            _kernels.KERNEL_PEAK
+            / np.pi
+            * (1.0 - un * un / 5.0)
+            * np.log(np.abs((_SQRT5 - un) / (_SQRT5 + un)))
+        )
+    out[~far] = np.where(np.abs(un) == _SQRT5, lin, lin + log_term)
+    return out
+
+
+def _density_hilbert_numpy(x, centres, bandwidths):
+    """Pure-numpy kernel sums, in row blocks of at most 4e6 pairs."""
+    m = centres.size
+    density = np.empty(x.size)
+    hilbert = np.empty(x.size)
+    step = max(1, _NUMPY_BLOCK_PAIRS // max(m, 1))
+    for start in range(0, x.size, step):
+        rows = slice(start, start + step)
+        u = (x[rows, None] - centres[None, :]) / bandwidths[None, :]
+        k = _kernels.KERNEL_PEAK * np.maximum(1.0 - u * u / 5.0, 0.0)
+        density[rows] = (k / bandwidths).sum(axis=1) / m
+        hilbert[rows] = (_hilbert_numpy(u) / bandwidths).sum(axis=1) / m
+    return density, hilbert
+
+
+def _density_hilbert(x, centres_desc, h, engine="numba", n_jobs=None):
+    """Density and Hilbert-transform estimates, bandwidths ``h * centres``.
+
+    ``centres_desc`` positive and descending; ``x`` any points.
+    """
+    x = np.ascontiguousarray(x, dtype=np.float64)
+    centres = np.ascontiguousarray(centres_desc, dtype=np.float64)
+    bandwidths = h * centres
+    if engine == "numpy":
+        return _density_hilbert_numpy(x, centres, bandwidths)
+    start, stop = _near_windows(x, centres, h)
+    with _kernels.numba_threads(n_jobs):
+        return _kernels.epanechnikov_density_hilbert(
+            x, centres, bandwidths, start, stop
+        )
+
+
+# -- the rule --------------------------------------------------------------
+def _hilbert_at_zero(vals: np.ndarray, h: float) -> float:
+    """Closed form of H~(0), Ledoit & Wolf (2020); needs sqrt5 h < 1."""
+    s5h = _SQRT5 * h
+    factor = (
+        3.0 / (10.0 * h * h)
+        + 3.0
+        / (4.0 * _SQRT5 * h)
+        * (1.0 - 1.0 / (5.0 * h * h))
+        * math.log((1.0 + s5h) / (1.0 - s5h))
+    ) / math.pi
+    return factor * float(np.mean(1.0 / vals))
+
+
+def _shrink_from_estimates(vals, f, H, n, p, hilbert_zero=None):
+    """Ledoit & Wolf's (2020) formulas given f~ and H~ at ``vals``: (d, d0)."""
+    c = p / n
+    if p <= n:
+        a = math.pi * c * vals * f
+        b = 1.0 - c - math.pi * c * vals * H
+        return vals / (a * a + b * b), None
+    d = vals / (math.pi**2 * vals * vals * (f * f + H * H))
+    return d, 1.0 / (math.pi * (p - n) / n * hilbert_zero)
+
+
+def _published(vals, n, p, h, engine, n_jobs):
+    """Ledoit & Wolf (2020) on descending positive ``vals``: (d, d0)."""
+    f, H = _density_hilbert(vals, vals, h, engine, n_jobs)
+    h0 = _hilbert_at_zero(vals, h) if p > n else None
+    return _shrink_from_estimates(vals, f, H, n, p, h0)
+
+
+#: Half-width in N/T of the zone where the hard-edge floor is phased in.
+HARD_EDGE_ZONE = 0.2
+
+
+def _hard_edge_floor(d: np.ndarray, d0, ratio: float, h: float):
+    """Floor the shrunk values of the collapsed bottom eigenvalues.
+
+    Near ``ratio = 1`` the bottom ``k = ceil(2/h)`` sample eigenvalues sit
+    at the hard edge, where their local bandwidths ``h lambda_j`` are
+    smaller than their spacing; there the density estimate is the kernel's
+    own peak and ``d_j`` falls to 0 like ``lambda_j``. They (and the null
+    value) are raised to at least ``tau`` times the median of ``d`` over the
+    ``2k`` eigenvalues just above them (a median: single values there are
+    noisy), ``tau = 1 - |ratio - 1| / HARD_EDGE_ZONE`` clipped at 0.
+    Returns ``(d, d0, number of values raised)``.
+    """
+    tau = 1.0 - abs(ratio - 1.0) / HARD_EDGE_ZONE
+    k = int(math.ceil(2.0 / h))
+    m = d.size
+    if tau <= 0.0 or 3 * k > m:
+        return d, d0, 0
+    floor = tau * float(np.median(d[m - 3 * k : m - k]))
+    out = d.copy()
+    bottom = out[m - k :]
+    raised = int(np.count_nonzero(bottom < floor))
+    out[m - k :] = np.maximum(bottom, floor)
+    if d0 is not None:
+        raised += int(d0 < floor)
+        d0 = max(d0, floor)
+    return out, d0, raised
+
+
+def _kernel_shrink(
+    vals: np.ndarray,
+    n_samples: float,
+    n_features: int,
+    *,
+    bandwidth: float | None = None,
+    formula: str = "stabilized",
+    engine: str = "numba",
+    n_jobs: int | None = None,
+) -> CleanedEigenvalues:
+    """Core of :func:`kernel_shrink` (no validation; ``vals`` descending > 0)."""
+    n, p = float(n_samples), int(n_features)
+    h = n ** (-1.0 / 3.0) if bandwidth is None else float(bandwidth)
+    d, d0 = _published(vals, n, p, h, engine, n_jobs)
+    details = {"bandwidth": h, "formula": formula, "ratio": p / n, "n_floored": 0}
+    if formula == "stabilized":
+        d, d0, details["n_floored"] = _hard_edge_floor(d, d0, p / n, h)
+    null = d0 if vals.size < p else None
+    return CleanedEigenvalues(d, null_value=null, n_signal=None, details=details)
+
+
+def _check_positive_real(value, name, owner):
+    if not (
+        isinstance(value, numbers.Real)
+        and not isinstance(value, (bool, np.bool_))
+        and math.isfinite(value)
+        and value > 0
+    ):
+        raise ValueError(
+            f"The {name!r} parameter of {owner} must be a positive float. "
+            f"Got {value!r} instead."
+        )
+    return float(value)
+
+
+def _check_choice(value, name, owner, choices):
+    if not (isinstance(value, str) and value in choices):
+        allowed = ", ".join(repr(c) for c in choices)
+        raise ValueError(
+            f"The {name!r} parameter of {owner} must be one of {allowed}. "
+            f"Got {value!r} instead."
+        )
+    return value
+
+
+def _check_spectrum(eigenvalues, n_samples, n_features, owner):
+    """Validate a rule's sample spectrum: (vals, n) with vals descending > 0."""
+    vals = check_eigenvalues(eigenvalues, owner)
+    n = _check_positive_real(n_samples, "n_samples", owner)
+    if not (
+        isinstance(n_features, numbers.Integral)
+        and not isinstance(n_features, (bool, np.bool_))
+        and n_features >= vals.size
+    ):
+        raise ValueError(
+            f"The 'n_features' parameter of {owner} must be an int of at least "
+            f"len(eigenvalues) = {vals.size}. Got {n_features!r} instead."
+        )
+    if np.any(np.diff(vals) > 0):
+        raise ValueError(f"eigenvalues of {owner} must be sorted in descending order.")
+    if vals[-1] <= 0:
+        raise ValueError(
+            f"eigenvalues of {owner} must all be positive (pass only the nonzero "
+            f"part of the spectrum); got a minimum of {float(vals[-1])!r}."
+        )
+    return vals, n
+
+
+def kernel_shrink(
+    eigenvalues,
+    n_samples: float,
+    n_features: int,
+    *,
+    bandwidth: float | None = None,
+    formula: str = "stabilized",
+    engine: str = "numba",
+    n_jobs: int | None = None,
+) -> CleanedEigenvalues:
+    r"""Analytical nonlinear shrinkage of sample eigenvalues.
+
+    Ledoit & Wolf's (2020) [1]_ estimator of the oracle eigenvalues
+    ``u_i' Sigma u_i`` from an Epanechnikov kernel estimate of the density
+    of the sample spectrum and of its Hilbert transform.
+
+    Parameters
+    ----------
+    eigenvalues : array_like of shape (n_components,)
+        The nonzero sample eigenvalues, descending, ``n_components =
+        min(n_features, n_samples)``; all must be positive.
+    n_samples : float
+        Effective sample size ``n`` (``T - 1`` after demeaning).
+    n_features : int
+        Dimension ``p``.
+    bandwidth : float, optional
+        Global bandwidth ``h``; default ``n^(-1/3)`` as in [1]_. The local
+        bandwidths are ``h lambda_j``.
+    formula : {"stabilized", "published"}, default="stabilized"
+        ``"published"`` is [1]_ exactly. ``"stabilized"`` equals it (to
+        rounding) when ``|p/n - 1| > 0.2`` and adds the remedy of the Notes
+        near the singular ratio.
+    engine : {"numba", "numpy"}, default="numba"
+        The O(m^2) kernel sums: compiled (O(m) memory) or numpy row blocks.
+    n_jobs : int, optional
+        Numba threads for the sums (``None``: numba's current setting,
+        ``-1``: all).
+
+    Returns
+    -------
+    CleanedEigenvalues
+        ``values`` in the input order; ``null_value`` the common value
+        ``d0`` of the ``p - n`` null directions when ``n_components <
+        n_features``; ``details`` with ``"bandwidth"``, ``"formula"``,
+        ``"ratio"``.
+
+    Raises
+    ------
+    ValueError
+        For a non-positive eigenvalue, or when ``p > n`` and
+        ``sqrt5 h >= 1`` (``n < 12`` with the default bandwidth), where the
+        closed form of ``H~(0)`` does not hold.
+
+    Notes
+    -----
+    With ``c = p/n``, ``m = min(p, n)``, the unit-variance Epanechnikov
+    kernel ``k(x) = 3/(4 sqrt5) (1 - x^2/5)^+`` and its Hilbert transform
+    ``H_k``:
+
+    .. math:: \tilde f(x) = \frac1m\sum_j \frac{k((x - \lambda_j)/h_j)}{h_j},
+              \quad \tilde H(x) = \frac1m\sum_j
+              \frac{H_k((x - \lambda_j)/h_j)}{h_j},\quad h_j = h\lambda_j,
+
+    and for ``p <= n``
+
+    .. math:: d_i = \frac{\lambda_i}{(\pi c\lambda_i\tilde f(\lambda_i))^2
+              + (1 - c - \pi c\lambda_i\tilde H(\lambda_i))^2};
+
+    for ``p > n``, ``d_i = 1 / (pi^2 lambda_i (f~^2 + H~^2))`` and the null
+    directions get ``d0 = 1 / (pi (p - n)/n H~(0))`` with
+
+    .. math:: \tilde H(0) = \frac1\pi\left[\frac{3}{10h^2} +
+              \frac{3}{4\sqrt5 h}\Big(1 - \frac{1}{5h^2}\Big)
+              \log\frac{1 + \sqrt5 h}{1 - \sqrt5 h}\right]
+              \frac1n\sum_j\frac1{\lambda_j}.
+
+    References
+    ----------
+    .. [1] O. Ledoit and M. Wolf, "Analytical nonlinear shrinkage of
+       large-dimensional covariance matrices", Ann. Statist. 48(5),
+       3043-3065, 2020.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from rmtclean.rules import kernel_shrink
+    >>> X = np.random.default_rng(0).standard_normal((400, 100))
+    >>> lam = np.linalg.eigvalsh(np.cov(X, rowvar=False))[::-1]
+    >>> out = kernel_shrink(lam, 399, 100)
+    >>> bool(np.ptp(out.values) < np.ptp(lam) / 3)
+    True
+    """
+    owner = "kernel_shrink"
+    vals, n = _check_spectrum(eigenvalues, n_samples, n_features, owner)
+    if bandwidth is not None:
+        bandwidth = _check_positive_real(bandwidth, "bandwidth", owner)
+    _check_choice(formula, "formula", owner, KERNEL_FORMULAS)
+    _check_choice(engine, "engine", owner, KERNEL_ENGINES)
+    if n_features <= n and vals.size < n_features:
+        raise ValueError(
+            f"{owner}: with n_features <= n_samples all n_features = {n_features} "
+            f"eigenvalues are needed (and must be positive); got {vals.size}."
+        )
+    h = n ** (-1.0 / 3.0) if bandwidth is None else bandwidth
+    if n_features > n and _SQRT5 * h >= 1.0:
+        raise ValueError(
+            f"{owner}: with n_features > n_samples the closed form of H~(0) needs "
+            f"sqrt(5) * bandwidth < 1, i.e. n_samples >= 12 with the default "
+            f"bandwidth n_samples**(-1/3). Got n_samples={n_samples!r}, "
+            f"bandwidth={h!r}."
+        )
+    return _kernel_shrink(
+        vals,
+        n,
+        int(n_features),
+        bandwidth=bandwidth,
+        formula=formula,
+        engine=engine,
+        n_jobs=n_jobs,
+    )
