@@ -125,7 +125,7 @@ def test_threshold_has_p_value_alpha(rng):
     eig, dof = spiked_spectrum(rng, 200, 50, spikes=(30.0,))
     test = detect_signal(eig, dof, 50, alpha=0.1, noise_variance=S2)
     k = test.n_signal
-    mu, sigma = largest_eigenvalue_scaling(dof - k, 50 - k)
+    mu, sigma = largest_eigenvalue_scaling(dof - k, 50 - k, constants=test.constants)
     stat = (dof * test.threshold / S2 - mu) / sigma
     assert TracyWidom(1).sf(stat) == pytest.approx(0.1, rel=1e-9)
 

@@ -159,7 +159,7 @@ def analyze_spectrum(
         Analyse the correlation matrix instead of the covariance.
     sample_weight : array_like of shape (n_samples,), optional
         Non-negative frequency weights.
-    constants : {"half-integer", "johnstone"}, default="half-integer"
+    constants : {"johnstone", "half-integer"}, default="johnstone"
         Tracy-Widom centring constants (see
         :func:`rmtclean.spectrum.detect_signal`).
     max_signal : int or None, default=None
