@@ -25,6 +25,10 @@ What each case promises is read from its documentation:
   compared more loosely. Unknown cleaners count as fitted.
 - ``varying_columns``: a zero-variance column is refused (the
   constant-correlation target divides by the column scales).
+- ``min_dof_wide``: fewest degrees of freedom accepted when N exceeds them
+  (KernelShrink: the closed form of its null-space term needs
+  ``n_samples >= 12``, rules/_kernel.py); below, the fit must refuse with a
+  ValueError.
 - ``warns_rank_deficient``: the fit diagonalises the sample covariance and
   says when eigenvalues the sample size allows are zero. LinearShrink's
   direct dense route computes no eigendecomposition at fit (its Notes), and
@@ -44,6 +48,7 @@ from rmtclean.estimators import SpectralCovariance
 __all__ = [
     "CASES",
     "CLOSED_FORM_RULES",
+    "RULE_MIN_DOF_WIDE",
     "Case",
     "RULES",
     "exported_estimators",
@@ -78,6 +83,14 @@ class Case:
     closed_form: bool = False
     varying_columns: bool = False
     warns_rank_deficient: bool = True
+    min_dof_wide: int = 0
+
+    def feasible(self, n_rows: int, n_features: int) -> bool:
+        """Whether the default parameters accept data of this shape."""
+        dof = n_rows - 1
+        if n_rows < self.min_rows:
+            return False
+        return not (n_features > dof and dof < self.min_dof_wide)
 
     @property
     def rtol(self) -> float:
@@ -112,6 +125,7 @@ _KNOWN = {
     "LinearShrink": {"closed_form": True, "warns_rank_deficient": False},
     "SplitShrink": {"semidefinite": True, "min_rows": 8, "closed_form": True},
     "EigenClip": {"trace_preserving": True},
+    "KernelShrink": {"min_dof_wide": 12},
 }
 _VARIANTS = {
     "LinearShrink": [
@@ -145,6 +159,8 @@ CASES: list[Case] = _cases()
 _RULE_KWARGS = {"linear_shrink": {"intensity": "oas"}}
 #: Rules without a fitted noise variance (see ``closed_form`` above).
 CLOSED_FORM_RULES = {"linear_shrink"}
+#: Fewest degrees of freedom a rule accepts when N exceeds them.
+RULE_MIN_DOF_WIDE = {"kernel_shrink": 12}
 
 
 def _eigenvalue_rules() -> dict:
