@@ -214,6 +214,35 @@ def _cvm_distance(cdf: np.ndarray) -> float:
     return float(1.0 / (12.0 * m) + np.sum((cdf - target) ** 2))
 
 
+def _mp_pdf(x: np.ndarray, shape: float) -> np.ndarray:
+    """Density of the Marchenko-Pastur law with ratio ``shape <= 1``, variance 1."""
+    from rmtclean.laws import MarchenkoPastur
+
+    return np.asarray(MarchenkoPastur(shape, 1.0).pdf(x), dtype=np.float64)
+
+
+def _cvm_stationary_log_scale(y: np.ndarray, shape: float) -> float | None:
+    """Root in [-1, 1] of the derivative of the CvM distance in the log scale.
+
+    With ``z = y exp(-t)`` the derivative is ``-2 sum (F(z) - target) f(z) z``.
+    A root found by bracketing is located to rounding error, whereas a
+    minimiser stops at about sqrt(eps) of a flat minimum, so two routes to
+    the same spectrum (dense or Gram) agree to ~1e-13 instead of ~1e-8.
+    Returns None if the derivative does not change sign on the bracket.
+    """
+    m = y.size
+    target = (2.0 * np.arange(1, m + 1) - 1.0) / (2.0 * m)
+
+    def slope(t):
+        z = y * math.exp(-t)
+        return float(np.sum((_mp_cdf(z, shape) - target) * _mp_pdf(z, shape) * z))
+
+    low, high = slope(-1.0), slope(1.0)
+    if not (low > 0.0 > high):
+        return None
+    return float(scipy.optimize.brentq(slope, -1.0, 1.0, xtol=1e-15, rtol=1e-15))
+
+
 def _fit_shape_scale(x, shape0, scale0, fix_shape, method):
     """Fit MP(shape, scale) with shape <= 1 to ascending positive values x."""
     if method == "moments":
@@ -225,6 +254,9 @@ def _fit_shape_scale(x, shape0, scale0, fix_shape, method):
     # scale-equivariant.
     y = x / scale0
     if fix_shape:
+        t = _cvm_stationary_log_scale(y, shape0)
+        if t is not None:
+            return shape0, scale0 * math.exp(t)
         result = scipy.optimize.minimize_scalar(
             lambda t: _cvm_distance(_mp_cdf(y / math.exp(t), shape0)),
             bounds=(-1.0, 1.0),
