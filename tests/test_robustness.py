@@ -166,7 +166,9 @@ def test_repeated_rows_warn(case):
         assert RankDeficientWarning in caught
 
 
-@pytest.mark.parametrize("case", [c for c in CASES if c.min_rows <= 3], ids=str)
+@pytest.mark.parametrize(
+    "case", [c for c in CASES if c.min_rows <= 3], ids=lambda c: c.id
+)
 @pytest.mark.parametrize("n_rows", [2, 3])
 @pytest.mark.parametrize("n_features", [1, 2, 6])
 def test_few_rows_fit_and_warn(case, n_rows, n_features):
