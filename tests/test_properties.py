@@ -173,6 +173,12 @@ def test_cleaned_eigenvalues_in_documented_range(case, data):
         k = est.n_signal_
         assert np.allclose(vals[k:], s2, rtol=1e-12, atol=0)
         assert np.all(vals[:k] >= s2 * (1 - 1e-12))
+    elif name == "EigenClip":
+        # Laloux et al. 1999: the signal eigenvalues are kept, the others
+        # replaced by their mean (REFERENCES item 9 [memory]).
+        k = est.n_signal_
+        assert np.array_equal(vals[:k], sample[:k])
+        assert np.allclose(vals[k:], est.bulk_mean_, rtol=1e-12, atol=0)
     # The spectral form and the dense matrix are the same estimate.
     dense = est.spectrum_.to_dense()
     assert _rel_err(dense, est.covariance_) <= 1e-10
