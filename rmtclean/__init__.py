@@ -2,10 +2,12 @@
 
 from rmtclean.estimators import (
     EigenClip,
+    KernelShrink,
     LinearShrink,
     SpectralCovariance,
     SpikeShrink,
     SplitShrink,
+    StieltjesShrink,
 )
 from rmtclean.rules import CleanedEigenvalues
 from rmtclean.spectrum import (
@@ -23,6 +25,7 @@ __all__ = sorted(
         "CleanedEigenvalues",
         "CleanedSpectrum",
         "EigenClip",
+        "KernelShrink",
         "LinearShrink",
         "SampleSpectrum",
         "SpectrumReport",
@@ -30,6 +33,7 @@ __all__ = sorted(
         "SpectralCovariance",
         "SpikeShrink",
         "SplitShrink",
+        "StieltjesShrink",
         "sample_spectrum",
     ]
 )

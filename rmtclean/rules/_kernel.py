@@ -184,7 +184,12 @@ def _kernel_shrink(
     """Core of :func:`kernel_shrink` (no validation; ``vals`` descending > 0)."""
     n, p = float(n_samples), int(n_features)
     h = n ** (-1.0 / 3.0) if bandwidth is None else float(bandwidth)
-    d, d0 = _published(vals, n, p, h, engine, n_jobs)
+    # Work in units of the largest eigenvalue (the formulas are scale
+    # equivariant; this keeps f~^2 and H~^2 finite for tiny or huge spectra).
+    unit = float(vals[0])
+    d, d0 = _published(vals / unit, n, p, h, engine, n_jobs)
+    d = d * unit
+    d0 = None if d0 is None else d0 * unit
     details = {"bandwidth": h, "formula": formula, "ratio": p / n, "n_floored": 0}
     if formula == "stabilized":
         d, d0, details["n_floored"] = _hard_edge_floor(d, d0, p / n, h)

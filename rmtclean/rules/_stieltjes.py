@@ -45,19 +45,22 @@ def _stieltjes_shrink(
     """Core of :func:`stieltjes_shrink` (no validation; ``vals`` descending > 0)."""
     n, p, m = float(n_samples), int(n_features), vals.size
     q = p / n
-    scale = float(vals.sum()) / p  # tr(S) / N, the mean eigenvalue
-    eta_rel = p**-0.5 if eta is None else float(eta)
-    eta_abs = eta_rel * scale
+    # Work in units of the mean eigenvalue tr(S)/N (the rule is scale
+    # equivariant; this keeps squares of tiny or huge spectra finite).
+    unit = float(vals.sum()) / p
+    vals = vals / unit
+    scale = 1.0
+    eta_abs = p**-0.5 if eta is None else float(eta)
     z, g = _full_resolvent(vals, p, eta_abs, n_jobs)
     xi = vals / np.abs(1.0 - q + q * z * g) ** 2
-    details = {"eta": eta_abs, "ratio": q, "noise_variance": None}
+    details = {"eta": eta_abs * unit, "ratio": q, "noise_variance": None}
     if regularize:
         edge = (1.0 - math.sqrt(q)) ** 2
         s2 = scale if edge == 0.0 else min(float(vals[-1]) / edge, scale)
         g_mp = np.asarray(MarchenkoPastur(q, s2).stieltjes(z))
         gamma = s2 * np.abs(1.0 - q + q * z * g_mp) ** 2 / vals
         xi = xi * np.maximum(1.0, gamma)
-        details["noise_variance"] = s2
+        details["noise_variance"] = s2 * unit
     null = None
     if m < p:
         # Ledoit-Peche's null value 1/((q - 1) mbar(0)), mbar the Stieltjes
@@ -71,7 +74,10 @@ def _stieltjes_shrink(
         xi = xi * factor
         null = None if null is None else null * factor
         details["trace_factor"] = factor
-    return CleanedEigenvalues(xi, null_value=null, n_signal=None, details=details)
+    null = None if null is None else null * unit
+    return CleanedEigenvalues(
+        xi * unit, null_value=null, n_signal=None, details=details
+    )
 
 
 def stieltjes_shrink(

@@ -1,0 +1,153 @@
+"""StieltjesShrink: the rotationally invariant estimator as a scikit-learn estimator."""
+
+from __future__ import annotations
+
+import numpy as np
+
+from rmtclean._validation import BOOLEAN, Interval
+from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.estimators._kernel import _expand, _positive_part
+from rmtclean.rules._stieltjes import _stieltjes_shrink
+from rmtclean.rules._types import CleanedEigenvalues
+from rmtclean.spectrum import SampleSpectrum
+
+__all__ = ["StieltjesShrink"]
+
+_DOC = r"""Rotationally invariant estimator (RIE) of the covariance.
+
+    Bun, Allez, Bouchaud & Potters' (2016) estimator from the Stieltjes
+    transform of the sample spectrum at ``lambda_i - i eta``, with the
+    small-eigenvalue regularisation of Bun, Bouchaud & Potters (2017) and an
+    optional trace rescaling; when N exceeds the degrees of freedom the null
+    space gets Ledoit & Peche's value. See
+    :func:`rmtclean.rules.stieltjes_shrink`.
+
+    Parameters
+    ----------
+    eta : float or None, default=None
+        Imaginary offset in units of the mean eigenvalue ``tr(S)/N``;
+        ``None`` is ``N^(-1/2)``.
+    regularize : bool, default=True
+        Apply the small-eigenvalue regularisation.
+    preserve_trace : bool, default=True
+        Rescale the cleaned eigenvalues to the sample trace.
+    n_jobs : int or None, default=None
+        Numba threads for the O(N^2) sum (``-1``: all).
+%(common)s
+    Attributes
+    ----------
+    covariance_ : ndarray of shape (n_features, n_features) or None
+        The cleaned covariance (None when not stored densely).
+    precision_ : ndarray of shape (n_features, n_features) or None
+        Its inverse (when stored).
+    location_ : ndarray of shape (n_features,)
+        The column means (zeros when ``assume_centered``).
+    spectrum_ : CleanedSpectrum
+        The cleaned covariance in spectral form.
+    sample_eigenvalues_ : ndarray of shape (n_features,)
+        Descending sample eigenvalues, the null space's zeros last.
+    eigenvalues_ : ndarray of shape (n_features,)
+        The cleaned eigenvalues, paired with ``sample_eigenvalues_``.
+    eigenvectors_ : ndarray of shape (n_features, n_components)
+        The sample eigenvectors.
+    n_signal_ : None
+        The rule computes no bulk edge.
+    eta_ : float
+        The absolute imaginary offset used.
+    noise_variance_ : float or None
+        The ``sigma^2`` of the regularisation (None without it).
+    scale_ : ndarray of shape (n_features,) or None
+        Column standard deviations when ``standardize``.
+    degrees_of_freedom_ : float
+    n_features_in_ : int
+    feature_names_in_ : ndarray of shape (n_features_in_,)
+
+    See Also
+    --------
+    rmtclean.rules.stieltjes_shrink : the same on eigenvalues.
+    KernelShrink : Ledoit & Wolf's analytical nonlinear shrinkage.
+
+    Notes
+    -----
+    Works on the gram route (``T < N``) without an N x N matrix. Sample
+    eigenvalues that are zero beyond what the sample size explains
+    (collinear columns) are treated as null space: the rank replaces the
+    degrees of freedom.
+
+    References
+    ----------
+    .. [1] J. Bun, R. Allez, J.-P. Bouchaud and M. Potters, "Rotational
+       invariant estimator for general noisy matrices", IEEE Trans. Inf.
+       Theory 62(12), 7475-7490, 2016.
+    .. [2] J. Bun, J.-P. Bouchaud and M. Potters, "Cleaning large
+       correlation matrices: tools from random matrix theory", Phys. Rep.
+       666, 1-109, 2017.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from rmtclean.estimators import StieltjesShrink
+    >>> X = np.random.default_rng(0).standard_normal((400, 200))
+    >>> est = StieltjesShrink().fit(X)
+    >>> bool(np.ptp(est.eigenvalues_) < np.ptp(est.sample_eigenvalues_) / 3)
+    True
+    """
+
+
+class StieltjesShrink(SpectralCovariance):
+    __doc__ = _DOC.replace("%(common)s", common_params_doc().rstrip("\n"))
+
+    _parameter_specs: dict = {
+        "eta": [None, Interval(float, 0.0, None, closed="neither")],
+        "regularize": [BOOLEAN],
+        "preserve_trace": [BOOLEAN],
+        "n_jobs": [None, Interval(int, -1, -1), Interval(int, 1, None)],
+    }
+
+    def __init__(
+        self,
+        *,
+        eta=None,
+        regularize=True,
+        preserve_trace=True,
+        n_jobs=None,
+        store_precision=True,
+        assume_centered=False,
+        standardize=False,
+        route="auto",
+        store_covariance="auto",
+        half_life=None,
+        missing="error",
+    ):
+        super().__init__(
+            store_precision=store_precision,
+            assume_centered=assume_centered,
+            standardize=standardize,
+            route=route,
+            store_covariance=store_covariance,
+            half_life=half_life,
+            missing=missing,
+        )
+        self.eta = eta
+        self.regularize = regularize
+        self.preserve_trace = preserve_trace
+        self.n_jobs = n_jobs
+
+    def _clean(self, spectrum: SampleSpectrum) -> CleanedEigenvalues:
+        vals, n, k = _positive_part(spectrum)
+        p = spectrum.n_features
+        if vals.size == 0:  # constant data: a zero covariance
+            self.eta_, self.noise_variance_ = 0.0, None
+            return CleanedEigenvalues(np.zeros(k), 0.0 if k < p else None)
+        out = _stieltjes_shrink(
+            vals,
+            n,
+            p,
+            eta=None if self.eta is None else float(self.eta),
+            regularize=self.regularize,
+            preserve_trace=self.preserve_trace,
+            n_jobs=self.n_jobs,
+        )
+        self.eta_ = out.details["eta"]
+        self.noise_variance_ = out.details["noise_variance"]
+        return _expand(out, k, p)
