@@ -320,6 +320,23 @@ def kernel_shrink(
               \log\frac{1 + \sqrt5 h}{1 - \sqrt5 h}\right]
               \frac1n\sum_j\frac1{\lambda_j}.
 
+    Near the singular ratio (``formula="stabilized"``). When ``|c - 1| <
+    0.2`` the smallest sample eigenvalues approach a hard edge at 0; for the
+    bottom ``k = ceil(2/h)`` of them the local bandwidth ``h lambda_j`` is
+    below their spacing, ``f~`` is the kernel's own peak and ``d_j`` falls to
+    0 like ``lambda_j`` (and ``d0`` with them), while the oracle stays near
+    the bottom of the population spectrum. Those ``k`` values and ``d0`` are
+    raised to at least ``tau`` times the median of ``d`` over the ``2k``
+    eigenvalues just above them, ``tau = 1 - |c - 1|/0.2``: continuous in
+    ``c``, and exactly the published formula for ``|c - 1| >= 0.2``
+    (``details["n_floored"]`` counts the values raised). Evidence (N = 150,
+    6 repetitions, Gaussian and t5 data): at ``c = 1`` the Frobenius loss
+    drops by 1.7% (Ledoit-Wolf mixture design) and 2.3% (AR(1), rho = 0.5)
+    and stays below sklearn's LedoitWolf on the mixture and AR(1) rho = 0.9
+    designs at every ratio from 0.5 to 1.25; a floor on the bandwidths
+    instead made the loss 5 to 40 times worse. Numbers and the command that
+    produced them: ``benchmarks/near_singular_ratio.md``.
+
     References
     ----------
     .. [1] O. Ledoit and M. Wolf, "Analytical nonlinear shrinkage of
