@@ -31,7 +31,8 @@ def _cmd_demo(args) -> int:
     result = run_demo(n_assets=args.assets, n_days=args.days, random_state=args.seed)
     print(
         f"Invented market: {result.n_assets} assets in 10 sectors with a market "
-        f"factor, {result.n_days} daily returns (seed {args.seed}).\n"
+        f"factor, {result.n_days} daily returns (seed {args.seed}); 11 factors "
+        "are planted (the market and 10 sectors) over heteroscedastic noise.\n"
     )
     print(result.report)
     print()

@@ -49,10 +49,16 @@ class DemoResult:
     rows: list
 
     def __str__(self) -> str:
-        head = f"{'cleaner':<22}{'Frobenius loss':>16}{'min-var vol %':>15}{'fit s':>8}"
+        head = (
+            f"{'cleaner':<22}{'Frobenius loss':>16}{'vs sample':>11}"
+            f"{'min-var vol %':>15}{'fit s':>8}"
+        )
         lines = [head, "-" * len(head)]
+        sample = next(r[1] for r in self.rows if r[0].startswith("sample"))
         for name, loss, vol, secs in self.rows:
-            lines.append(f"{name:<22}{loss:>16.4g}{vol:>15.3f}{secs:>8.3f}")
+            lines.append(
+                f"{name:<22}{loss:>16.4g}{loss / sample:>11.3f}{vol:>15.3f}{secs:>8.3f}"
+            )
         return "\n".join(lines)
 
 
