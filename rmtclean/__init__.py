@@ -20,20 +20,18 @@ from rmtclean.spectrum import (
 
 __version__ = "0.1.0"
 
-__all__ = sorted(
-    [
-        "CleanedEigenvalues",
-        "CleanedSpectrum",
-        "EigenClip",
-        "KernelShrink",
-        "LinearShrink",
-        "SampleSpectrum",
-        "SpectrumReport",
-        "analyze_spectrum",
-        "SpectralCovariance",
-        "SpikeShrink",
-        "SplitShrink",
-        "StieltjesShrink",
-        "sample_spectrum",
-    ]
-)
+__all__ = [
+    "CleanedEigenvalues",
+    "CleanedSpectrum",
+    "EigenClip",
+    "KernelShrink",
+    "LinearShrink",
+    "SampleSpectrum",
+    "SpectralCovariance",
+    "SpectrumReport",
+    "SpikeShrink",
+    "SplitShrink",
+    "StieltjesShrink",
+    "analyze_spectrum",
+    "sample_spectrum",
+]

@@ -8,14 +8,12 @@ from rmtclean.estimators._spiked import SpikeShrink
 from rmtclean.estimators._split import SplitShrink
 from rmtclean.estimators._stieltjes import StieltjesShrink
 
-__all__ = sorted(
-    [
-        "EigenClip",
-        "KernelShrink",
-        "LinearShrink",
-        "SpectralCovariance",
-        "SpikeShrink",
-        "SplitShrink",
-        "StieltjesShrink",
-    ]
-)
+__all__ = [
+    "EigenClip",
+    "KernelShrink",
+    "LinearShrink",
+    "SpectralCovariance",
+    "SpikeShrink",
+    "SplitShrink",
+    "StieltjesShrink",
+]

@@ -19,25 +19,23 @@ from rmtclean.rules._split import NULL_SPACE_METHODS, split_covariance, split_sh
 from rmtclean.rules._stieltjes import stieltjes_shrink
 from rmtclean.rules._types import CleanedEigenvalues
 
-__all__ = sorted(
-    [
-        "CleanedEigenvalues",
-        "eigen_clip",
-        "INTENSITY_METHODS",
-        "SHRINKAGE_TARGETS",
-        "linear_shrink",
-        "linear_shrink_covariance",
-        "shrinkage_intensity",
-        "shrinkage_target",
-        "NULL_SPACE_METHODS",
-        "split_covariance",
-        "split_shrink",
-        "SPIKE_SHRINKERS",
-        "optimal_hard_threshold",
-        "spike_shrink",
-        "KERNEL_ENGINES",
-        "KERNEL_FORMULAS",
-        "kernel_shrink",
-        "stieltjes_shrink",
-    ]
-)
+__all__ = [
+    "CleanedEigenvalues",
+    "INTENSITY_METHODS",
+    "KERNEL_ENGINES",
+    "KERNEL_FORMULAS",
+    "NULL_SPACE_METHODS",
+    "SHRINKAGE_TARGETS",
+    "SPIKE_SHRINKERS",
+    "eigen_clip",
+    "kernel_shrink",
+    "linear_shrink",
+    "linear_shrink_covariance",
+    "optimal_hard_threshold",
+    "shrinkage_intensity",
+    "shrinkage_target",
+    "spike_shrink",
+    "split_covariance",
+    "split_shrink",
+    "stieltjes_shrink",
+]
