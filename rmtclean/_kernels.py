@@ -105,7 +105,7 @@ def epanechnikov_hilbert(u: float) -> float:
     return _near_hilbert(u)
 
 
-@njit(cache=True, error_model="numpy")
+@njit(cache=True, error_model="numpy", inline="always")
 def _far_block(xi, centres, bandwidths, start, stop):
     """Far-field sum of _far_series(w)/d over j in [start, stop).
 
@@ -146,7 +146,7 @@ def _far_block(xi, centres, bandwidths, start, stop):
     return acc
 
 
-@njit(cache=True, error_model="numpy")
+@njit(cache=True, error_model="numpy", inline="always")
 def _mixed_block(xi, centres, inv_bandwidths, start, stop):
     """Density sum and Hilbert sum over j in [start, stop), any field.
 
