@@ -24,14 +24,21 @@ def _mp_g(z, q, s2):
     return (z + s2 * (q - 1) - np.sqrt(z - lp) * np.sqrt(z - lm)) / (2 * q * s2 * z)
 
 
-def _direct_rie(lam, T, N, eta, regularize, preserve_trace):
+def _direct_rie(lam, T, N, eta, regularize, preserve_trace, relative=False):
     """Bun et al. (2016) eq. and Bun, Bouchaud & Potters (2017) regularisation,
-    written out with naive loops (REFERENCES item 8 [memory]); eta absolute."""
+    written out with naive loops (REFERENCES item 8 [memory]); eta absolute.
+    ``relative``: rmtclean's width eta_i = eta_rel lambda_i, eta_rel = eta N / tr S
+    (the published formula otherwise)."""
     lam = [float(v) for v in lam]
     m, q = len(lam), N / T
+    rel = eta * N / sum(lam)
+
+    def point(li):
+        return complex(li, -(rel * li if relative else eta))
+
     xi = []
     for li in lam:
-        z = complex(li, -eta)
+        z = point(li)
         g = sum(1 / (z - lj) for lj in lam) + (N - m) / z  # zeros included
         g /= N
         xi.append(li / abs(1 - q + q * z * g) ** 2)
@@ -39,7 +46,7 @@ def _direct_rie(lam, T, N, eta, regularize, preserve_trace):
     if regularize:
         s2 = min(lam[-1] / (1 - math.sqrt(q)) ** 2, sum(lam) / N)
         for i, li in enumerate(lam):
-            z = complex(li, -eta)
+            z = point(li)
             gamma = s2 * abs(1 - q + q * z * _mp_g(z, q, s2)) ** 2 / li
             xi[i] *= max(1.0, gamma)
     null = None
@@ -65,9 +72,15 @@ def _spectrum(rng, T, N):
 @pytest.mark.parametrize("regularize", [False, True])
 @pytest.mark.parametrize("preserve_trace", [False, True])
 def test_equals_direct_evaluation(rng, T, N, regularize, preserve_trace):
+    # The published formula (width="uniform").
     lam, n = _spectrum(rng, T, N)
     out = stieltjes_shrink(
-        lam, n, N, regularize=regularize, preserve_trace=preserve_trace
+        lam,
+        n,
+        N,
+        regularize=regularize,
+        preserve_trace=preserve_trace,
+        width="uniform",
     )
     eta = N**-0.5 * lam.sum() / N  # default eta in units of tr(S)/N
     assert out.details["eta"] == pytest.approx(eta, rel=1e-15)
@@ -81,7 +94,7 @@ def test_equals_direct_evaluation(rng, T, N, regularize, preserve_trace):
 
 def test_explicit_eta(rng):
     lam, n = _spectrum(rng, 301, 100)
-    out = stieltjes_shrink(lam, n, 100, eta=0.2, preserve_trace=False)
+    out = stieltjes_shrink(lam, n, 100, eta=0.2, preserve_trace=False, width="uniform")
     xi, _ = _direct_rie(lam, n, 100, 0.2 * lam.sum() / 100, True, False)
     np.testing.assert_allclose(out.values, xi, rtol=1e-10)
 
@@ -96,8 +109,11 @@ def test_pure_noise_sanity_numbers():
     for seed in range(6):
         X = np.random.default_rng(seed).standard_normal((T, N))
         lam = np.linalg.eigvalsh(X.T @ X / T)[::-1]
-        raw = stieltjes_shrink(lam, T, N, regularize=False, preserve_trace=False)
-        reg = stieltjes_shrink(lam, T, N, preserve_trace=False)
+        # The reference numbers are those of the published (uniform) width.
+        raw = stieltjes_shrink(
+            lam, T, N, regularize=False, preserve_trace=False, width="uniform"
+        )
+        reg = stieltjes_shrink(lam, T, N, preserve_trace=False, width="uniform")
         before.append(raw.values[-N // 10 :].mean())
         after.append(reg.values[-N // 10 :].mean())
         ratio.append(raw.values.sum() / lam.sum())
@@ -139,11 +155,15 @@ def test_small_ratio_returns_the_sample_eigenvalues(rng):
     np.testing.assert_allclose(out.values, lam, rtol=0.03)
 
 
-def test_scale_equivariance(rng):
-    lam, n = _spectrum(rng, 151, 100)
-    a = stieltjes_shrink(lam, n, 100)
-    b = stieltjes_shrink(3.0 * lam, n, 100)
+@pytest.mark.parametrize("width", ["relative", "uniform"])
+@pytest.mark.parametrize("T", [151, 61])
+def test_scale_equivariance(rng, width, T):
+    lam, n = _spectrum(rng, T, 100)
+    a = stieltjes_shrink(lam, n, 100, width=width)
+    b = stieltjes_shrink(3.0 * lam, n, 100, width=width)
     np.testing.assert_allclose(b.values, 3.0 * a.values, rtol=1e-10)
+    if a.null_value is not None:
+        assert b.null_value == pytest.approx(3.0 * a.null_value, rel=1e-10)
 
 
 def test_ratio_one_is_finite(rng):
@@ -157,6 +177,8 @@ def test_validation_messages():
     lam = np.array([3.0, 2.0, 1.0])
     with pytest.raises(ValueError, match="'eta' parameter of stieltjes_shrink"):
         stieltjes_shrink(lam, 100, 3, eta=-1.0)
+    with pytest.raises(ValueError, match="'width' parameter of stieltjes_shrink"):
+        stieltjes_shrink(lam, 100, 3, width="absolute")
     with pytest.raises(ValueError, match="'regularize' parameter"):
         stieltjes_shrink(lam, 100, 3, regularize="yes")
     with pytest.raises(ValueError, match="descending"):
@@ -165,3 +187,148 @@ def test_validation_messages():
         stieltjes_shrink(np.array([1.0, 0.0]), 100, 2)
     with pytest.raises(ValueError, match="'n_features' parameter"):
         stieltjes_shrink(lam, 100, 2)
+
+
+# --- The relative width eta_i = eta lambda_i (rmtclean's default) -----------
+
+
+@pytest.mark.parametrize("T, N", [(401, 100), (61, 100)])
+@pytest.mark.parametrize("regularize", [False, True])
+def test_relative_width_equals_direct_evaluation(rng, T, N, regularize):
+    # Same formula at z_i = lambda_i (1 - i eta) [computed: naive loops].
+    lam, n = _spectrum(rng, T, N)
+    out = stieltjes_shrink(lam, n, N, regularize=regularize)
+    assert out.details["width"] == "relative"
+    eta = N**-0.5 * lam.sum() / N
+    xi, null = _direct_rie(lam, n, N, eta, regularize, True, relative=True)
+    np.testing.assert_allclose(out.values, xi, rtol=1e-10)
+    if N > n:
+        assert out.null_value == pytest.approx(null, rel=1e-10)
+
+
+def test_relative_width_blocked_sum_across_blocks():
+    # More eigenvalues than one block of the numpy sum [computed].
+    from rmtclean.rules import _stieltjes
+
+    lam = np.sort(np.random.default_rng(3).gamma(2.0, size=_stieltjes._BLOCK + 37))
+    lam = lam[::-1]
+    out = stieltjes_shrink(lam, 2000, lam.size, regularize=False)
+    xi, _ = _direct_rie(
+        lam, 2000, lam.size, lam.mean() / lam.size**0.5, False, True, True
+    )
+    np.testing.assert_allclose(out.values, xi, rtol=1e-10)
+
+
+def _spiked_top(seed, T, N, ell, **kwargs):
+    rng = np.random.default_rng(seed)
+    X = rng.standard_normal((T, N))
+    X[:, 0] *= math.sqrt(ell)
+    lam, vec = np.linalg.eigh(X.T @ X / T)
+    out = stieltjes_shrink(lam[::-1], T, N, **kwargs)
+    u = vec[:, -1]
+    return out.values, (ell - 1.0) * u[0] ** 2 + 1.0  # u' Sigma u, s2 = 1
+
+
+def test_spike_recovers_the_overlap_weighted_oracle():
+    # Spiked model (REFERENCES item 4 [memory+checked], Baik, Ben Arous &
+    # Peche 2005; Paul 2007 Thm 4): q = 0.5, ell = 5, c^2 = 0.8611111111, so
+    # u' Sigma u -> ell c^2 + s2 (1 - c^2) = 4.4444. The RIE at an outlier
+    # tends to this value (Bun, Bouchaud & Potters 2017 [memory]). Formula
+    # only: no trace rescaling. 20 seeds, T = 400, N = 200.
+    c2 = 0.8611111111
+    target = 5 * c2 + (1 - c2)
+    tops, oracles = [], []
+    for seed in range(20):
+        values, oracle = _spiked_top(seed, 400, 200, 5.0, preserve_trace=False)
+        tops.append(values[0])
+        oracles.append(oracle)
+    tops, oracles = np.array(tops), np.array(oracles)
+    se = np.std(tops, ddof=1) / math.sqrt(tops.size)
+    assert abs(tops.mean() - target) < 3 * se
+    # Against the realised oracle u' Sigma u of each sample [computed].
+    diff = tops - oracles
+    assert abs(diff.mean()) < 3 * np.std(diff, ddof=1) / math.sqrt(diff.size)
+
+
+@pytest.mark.parametrize("ell", [5.0, 60.0])
+def test_spike_follows_the_bbp_map_of_its_eigenvalue(ell):
+    # Given the sample eigenvalue lambda of a spike, the limit of the RIE is
+    # ell(lambda) c^2 + s2 (1 - c^2) with the inverse BBP map and Paul's
+    # overlap (REFERENCES item 4 [memory+checked], via rmtclean.spectrum).
+    # Finite-N gap measured 0.1-0.5% (T = 400, N = 200, seeds 0-3).
+    from rmtclean.spectrum import eigenvalue_to_spike, spike_overlap
+
+    q = 0.5
+    for seed in range(4):
+        rng = np.random.default_rng(seed)
+        X = rng.standard_normal((400, 200))
+        X[:, 0] *= math.sqrt(ell)
+        lam = np.linalg.eigvalsh(X.T @ X / 400)[::-1]
+        spike = eigenvalue_to_spike(lam[0], q)
+        c2 = spike_overlap(spike, q)
+        limit = spike * c2 + (1 - c2)
+        out = stieltjes_shrink(lam, 400, 200, preserve_trace=False)
+        assert abs(out.values[0] / limit - 1) < 0.01
+        if ell == 60.0:
+            # The published width: q lambda/(N eta) ~ 2 divides by ~3.
+            uniform = stieltjes_shrink(
+                lam, 400, 200, preserve_trace=False, width="uniform"
+            )
+            assert uniform.values[0] < 0.5 * limit
+
+
+def test_monotone_for_well_separated_spikes():
+    # Spikes 80, 40, 20, 10 (BBP threshold 1 + sqrt(0.5) = 1.71, REFERENCES
+    # item 4): the cleaned top four keep the order of the sample eigenvalues.
+    rng = np.random.default_rng(11)
+    T, N = 400, 200
+    X = rng.standard_normal((T, N))
+    X[:, :4] *= np.sqrt([80.0, 40.0, 20.0, 10.0])
+    lam = np.linalg.eigvalsh(X.T @ X / T)[::-1]
+    out = stieltjes_shrink(lam, T, N)
+    assert np.all(np.diff(out.values[:5]) < 0)
+    # Each one below its sample eigenvalue (shrinkage toward the bulk).
+    assert np.all(out.values[:4] < lam[:4])
+
+
+def test_block_factor_market_mode():
+    # A market mode of size ~N (the case that motivated the relative width):
+    # 300 features, 10 sectors, T = 500. The cleaned top eigenvalue sits
+    # within 5% of the realised oracle u' Sigma u [computed], and the rule
+    # beats the sample covariance in Frobenius norm [computed]; the published
+    # width divides the top eigenvalue by ~10.
+    rng = np.random.default_rng(7)
+    design = make_design(
+        "block-factor",
+        300,
+        n_blocks=10,
+        market_variance=1.0,
+        block_variance=0.6,
+        random_state=rng,
+    )
+    X = design.sample(500, random_state=rng)
+    S = np.cov(X, rowvar=False)
+    lam, vec = np.linalg.eigh(S)
+    lam, vec = lam[::-1], vec[:, ::-1]
+    oracle = np.einsum("ij,ik,kj->j", vec, design.covariance, vec)
+    out = stieltjes_shrink(lam, 499, 300)
+    assert abs(out.values[0] / oracle[0] - 1) < 0.05
+    cleaned = (vec * out.values) @ vec.T
+    truth = design.covariance
+    assert np.linalg.norm(cleaned - truth) < np.linalg.norm(S - truth)
+    published = stieltjes_shrink(lam, 499, 300, width="uniform")
+    assert published.values[0] < 0.2 * oracle[0]
+
+
+def test_estimator_width_and_scale_equivariance():
+    # Scaling X by c scales the cleaned covariance by c^2 [computed].
+    from rmtclean.estimators import StieltjesShrink
+
+    X = make_design("mixture", 60).sample(90, random_state=np.random.default_rng(5))
+    for width in ("relative", "uniform"):
+        a = StieltjesShrink(width=width).fit(X).covariance_
+        b = StieltjesShrink(width=width).fit(4.0 * X).covariance_
+        np.testing.assert_allclose(b, 16.0 * a, rtol=1e-9, atol=1e-12)
+    rel = StieltjesShrink().fit(X).eigenvalues_
+    uni = StieltjesShrink(width="uniform").fit(X).eigenvalues_
+    assert not np.allclose(rel, uni)

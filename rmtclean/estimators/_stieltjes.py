@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from rmtclean._validation import BOOLEAN, Interval
+from rmtclean._validation import BOOLEAN, Interval, Options
 from rmtclean.estimators._base import SpectralCovariance, common_params_doc
 from rmtclean.estimators._kernel import _expand, _positive_part
 from rmtclean.rules._stieltjes import _stieltjes_shrink
@@ -25,12 +25,18 @@ _DOC = r"""Rotationally invariant estimator (RIE) of the covariance.
     Parameters
     ----------
     eta : float or None, default=None
-        Imaginary offset in units of the mean eigenvalue ``tr(S)/N``;
-        ``None`` is ``N^(-1/2)``.
+        Relative imaginary offset, ``None`` is ``N^(-1/2)``: the point for
+        ``lambda_i`` is ``lambda_i (1 - i eta)`` with ``width="relative"``,
+        ``lambda_i - i eta tr(S)/N`` with ``width="uniform"``.
     regularize : bool, default=True
         Apply the small-eigenvalue regularisation.
     preserve_trace : bool, default=True
         Rescale the cleaned eigenvalues to the sample trace.
+    width : {"relative", "uniform"}, default="relative"
+        ``"relative"``: an offset proportional to each eigenvalue, which
+        keeps isolated large eigenvalues (a market mode) right;
+        ``"uniform"``: one offset for all, the published formula. See
+        :func:`rmtclean.rules.stieltjes_shrink`.
     n_jobs : int or None, default=None
         Numba threads for the O(N^2) sum (``-1``: all).
 %(common)s
@@ -53,7 +59,8 @@ _DOC = r"""Rotationally invariant estimator (RIE) of the covariance.
     n_signal_ : None
         The rule computes no bulk edge.
     eta_ : float
-        The absolute imaginary offset used.
+        ``eta`` times ``tr(S)/N``: the absolute offset (``"uniform"``), or
+        the offset at an eigenvalue equal to the mean (``"relative"``).
     noise_variance_ : float or None
         The ``sigma^2`` of the regularisation (None without it).
     scale_ : ndarray of shape (n_features,) or None
@@ -101,6 +108,7 @@ class StieltjesShrink(SpectralCovariance):
         "eta": [None, Interval(float, 0.0, None, closed="neither")],
         "regularize": [BOOLEAN],
         "preserve_trace": [BOOLEAN],
+        "width": [Options({"relative", "uniform"})],
         "n_jobs": [None, Interval(int, -1, -1), Interval(int, 1, None)],
     }
 
@@ -110,6 +118,7 @@ class StieltjesShrink(SpectralCovariance):
         eta=None,
         regularize=True,
         preserve_trace=True,
+        width="relative",
         n_jobs=None,
         store_precision=True,
         assume_centered=False,
@@ -131,6 +140,7 @@ class StieltjesShrink(SpectralCovariance):
         self.eta = eta
         self.regularize = regularize
         self.preserve_trace = preserve_trace
+        self.width = width
         self.n_jobs = n_jobs
 
     def _clean(self, spectrum: SampleSpectrum) -> CleanedEigenvalues:
@@ -146,6 +156,7 @@ class StieltjesShrink(SpectralCovariance):
             eta=None if self.eta is None else float(self.eta),
             regularize=self.regularize,
             preserve_trace=self.preserve_trace,
+            width=self.width,
             n_jobs=self.n_jobs,
         )
         self.eta_ = out.details["eta"]

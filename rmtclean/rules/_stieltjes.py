@@ -19,6 +19,10 @@ from rmtclean.rules._types import CleanedEigenvalues
 
 __all__ = ["stieltjes_shrink"]
 
+_WIDTHS = ("relative", "uniform")
+#: Rows of the (rows x n_components) blocks of the relative-width sum.
+_BLOCK = 256
+
 
 def _full_resolvent(vals, n_features, eta, n_jobs=None):
     """g(z_i) over all eigenvalues (zeros included), z_i = l_i - i eta."""
@@ -32,6 +36,22 @@ def _full_resolvent(vals, n_features, eta, n_jobs=None):
     return z, g
 
 
+def _relative_resolvent(vals, n_features, eta):
+    """g(z_i) at z_i = l_i (1 - i eta), zeros included (blocked numpy sum)."""
+    m = vals.size
+    widths = eta * vals
+    re, im = np.empty(m), np.empty(m)
+    for start in range(0, m, _BLOCK):
+        rows = slice(start, min(start + _BLOCK, m))
+        d = vals[rows, None] - vals[None, :]
+        inv = 1.0 / (d * d + (widths[rows, None] ** 2))
+        re[rows] = (d * inv).sum(axis=1)
+        im[rows] = widths[rows] * inv.sum(axis=1)
+    z = vals - 1j * widths
+    g = (re + 1j * im + (n_features - m) / z) / n_features
+    return z, g
+
+
 def _stieltjes_shrink(
     vals: np.ndarray,
     n_samples: float,
@@ -40,6 +60,7 @@ def _stieltjes_shrink(
     eta: float | None = None,
     regularize: bool = True,
     preserve_trace: bool = True,
+    width: str = "relative",
     n_jobs: int | None = None,
 ) -> CleanedEigenvalues:
     """Core of :func:`stieltjes_shrink` (no validation; ``vals`` descending > 0)."""
@@ -51,9 +72,17 @@ def _stieltjes_shrink(
     vals = vals / unit
     scale = 1.0
     eta_abs = p**-0.5 if eta is None else float(eta)
-    z, g = _full_resolvent(vals, p, eta_abs, n_jobs)
+    if width == "relative":  # eta_i = eta lambda_i
+        z, g = _relative_resolvent(vals, p, eta_abs)
+    else:  # the published formula: one eta for every point
+        z, g = _full_resolvent(vals, p, eta_abs, n_jobs)
     xi = vals / np.abs(1.0 - q + q * z * g) ** 2
-    details = {"eta": eta_abs * unit, "ratio": q, "noise_variance": None}
+    details = {
+        "eta": eta_abs * unit,
+        "width": width,
+        "ratio": q,
+        "noise_variance": None,
+    }
     if regularize:
         edge = (1.0 - math.sqrt(q)) ** 2
         s2 = scale if edge == 0.0 else min(float(vals[-1]) / edge, scale)
@@ -88,6 +117,7 @@ def stieltjes_shrink(
     eta: float | None = None,
     regularize: bool = True,
     preserve_trace: bool = True,
+    width: str = "relative",
     n_jobs: int | None = None,
 ) -> CleanedEigenvalues:
     r"""Rotationally invariant estimator of the oracle eigenvalues.
@@ -106,24 +136,33 @@ def stieltjes_shrink(
     n_features : int
         Dimension ``N``.
     eta : float, optional
-        Distance of ``z_i = lambda_i - i eta`` from the real axis, in units
-        of the mean eigenvalue ``tr(S)/N`` (so that the rule is scale
-        equivariant; for a correlation matrix the unit is 1). Default
-        ``N^(-1/2)`` [2]_.
+        Relative distance of the evaluation points from the real axis.
+        With ``width="relative"`` the point is ``z_i = lambda_i (1 - i
+        eta)``; with ``width="uniform"`` it is ``z_i = lambda_i - i eta``
+        with ``eta`` in units of the mean eigenvalue ``tr(S)/N``. Either
+        way the rule is scale equivariant. Default ``N^(-1/2)`` [2]_.
     regularize : bool, default=True
         Apply the small-eigenvalue correction of [2]_.
     preserve_trace : bool, default=True
         Rescale so that the cleaned trace (null space included) equals
         ``sum(eigenvalues)``.
+    width : {"relative", "uniform"}, default="relative"
+        ``"relative"``: the distance from the real axis is ``eta
+        lambda_i``, proportional to the eigenvalue (see Notes).
+        ``"uniform"``: one distance for every point, the published formula
+        of [1]_ and [2]_.
     n_jobs : int, optional
-        Numba threads for the O(n_components^2) sum.
+        Numba threads for the O(n_components^2) sum (``width="uniform"``;
+        the relative sum is a blocked numpy sum).
 
     Returns
     -------
     CleanedEigenvalues
         ``values`` in the input order; ``null_value`` for the ``N - T``
         null directions when ``n_components < n_features``; ``details``
-        with ``"eta"`` (absolute), ``"ratio"``, ``"noise_variance"`` (the
+        with ``"eta"`` (``eta tr(S)/N``: the absolute distance for
+        ``"uniform"``, the distance at an eigenvalue equal to the mean for
+        ``"relative"``), ``"width"``, ``"ratio"``, ``"noise_variance"`` (the
         ``sigma^2`` of the regularisation) and ``"trace_factor"``.
 
     Notes
@@ -132,7 +171,68 @@ def stieltjes_shrink(
     ``N`` sample eigenvalues (zeros included),
 
     .. math:: \xi_i = \frac{\lambda_i}{|1 - q + q z_i g(z_i)|^2},\qquad
-              z_i = \lambda_i - i\eta.
+              z_i = \lambda_i - i\eta_i.
+
+    Width. The published formula [1]_ [2]_ takes one ``eta_i = eta`` for
+    every point (``width="uniform"``; ``eta`` in units of ``tr(S)/N``
+    here). The derivation lets ``eta -> 0`` after ``N -> infinity`` with an
+    O(1) spectrum; at finite ``N`` the self-term ``j = i`` of ``g(z_i)`` is
+    ``i/(N eta)``, and in ``q z_i g(z_i)`` it weighs ``q lambda_i/(N eta)``.
+    For an eigenvalue far above the others (a market mode of size ~N) this
+    is O(1-10) and divides the eigenvalue by about
+    ``1 + (q lambda_i/(N eta))^2`` (17 for the market mode below), where the
+    limit (``g`` real outside the bulk) gives the overlap-weighted value: for
+    a spike of the white spiked model, ``lambda/(1 - q + q lambda g_MP(lambda))^2``
+    equals ``ell c^2 + s2 (1 - c^2)`` exactly (``ell``, ``c^2`` of
+    Baik-Ben Arous-Peche and Paul; checked numerically for rmtclean). The
+    default ``width="relative"`` uses ``eta_i = eta lambda_i``, a width
+    proportional to the local scale of the spectrum, as in the
+    eigenvalue-proportional bandwidths of Ledoit & Wolf's kernel estimator
+    (:func:`rmtclean.rules.kernel_shrink`): the self-term then weighs
+    ``q/(N eta) = q N^(-1/2)`` for every eigenvalue, large or small, and
+    vanishes as ``N`` grows (rmtclean's choice, not in [1]_ [2]_).
+
+    Alternatives measured and rejected (seeds 7-9): removing the outliers'
+    terms from ``g`` at the eigenvalues a Tracy-Widom edge test declares
+    signal fails when a whole group stands above the white-noise edge
+    (Ledoit-Wolf 1/3/10 mixture, ``N = 200``, ``T = 400``: Frobenius loss
+    14.5 against 5.9, no better than the sample covariance); a
+    leave-one-out ``g`` (self-term dropped) at those eigenvalues was worse
+    than the relative width on the block-factor (5.29 against 4.73) and
+    mixture (``T = 100``: 14.1 against 11.9) designs and within 2% of it on
+    the spiked ones; dropping the self-term everywhere was worse still.
+
+    Measured for rmtclean (:class:`rmtclean.estimators.StieltjesShrink`,
+    defaults otherwise; mean Frobenius loss over seeds 7-11, each seed
+    drawing the design (when random) and then the sample from one
+    ``np.random.default_rng(seed)``; PRIAL in % against the sample
+    covariance and :func:`rmtclean.metrics.oracle_covariance`):
+
+    ========================  ============  ============  ======  =====  =====
+    design (N, T)             uniform       relative      kernel  LW     S
+    ========================  ============  ============  ======  =====  =====
+    block-factor (300, 500)   297 (-14502)  4.26 (36.3)   4.07    5.14   4.99
+    mixture (200, 400)        6.01 (97.3)   5.95 (98.0)   5.90    7.31   14.69
+    mixture (200, 100)        13.09 (96.2)  11.91 (98.7)  11.79   11.79  58.84
+    spiked (200, 400)         2.41 (-268)   0.319 (90.5)  0.334   0.726  0.848
+    spiked (300, 150)         4.93 (-94)    0.805 (94.5)  0.804   1.96   2.88
+    ========================  ============  ============  ======  =====  =====
+
+    (block-factor: ``make_design("block-factor", 300, n_blocks=10,
+    market_variance=1.0, block_variance=0.6)``; mixture: Ledoit & Wolf's
+    1/3/10 design; kernel: :class:`~rmtclean.estimators.KernelShrink`;
+    LW: scikit-learn's LedoitWolf; S: sample covariance; spiked: spikes
+    40, 10, 5 on unit noise.) On the block-factor sample of seed 7 the
+    top eigenvalue (population 329.7, sample 340.6) is cleaned to 334.7
+    (uniform: 30.0, below several sector eigenvalues, e.g. 31.9); sector
+    eigenvalues closer to each other than ``eta lambda_i`` can still swap
+    by a few percent. On pure
+    noise (``N = 500``, ``T = 1000``, 6 seeds) the bottom-decile mean is
+    0.955 before the regularisation (uniform: 0.755) and 0.999 after
+    (uniform: 1.003); for a single spike the cleaned value follows the BBP
+    limit ``ell(lambda) c^2 + 1 - c^2`` of its sample eigenvalue within
+    0.5% (uniform: 2.5% low at ``ell = 5``, 70% low at ``ell = 60``;
+    ``N = 200``, ``T = 400``).
 
     Regularisation [2]_: ``sigma^2 = lambda_min / (1 - sqrt q)^2`` (the
     Marchenko-Pastur lower edge put on the smallest nonzero eigenvalue),
@@ -192,6 +292,11 @@ def stieltjes_shrink(
                 f"The {name!r} parameter of {owner} must be a bool. "
                 f"Got {value!r} instead."
             )
+    if not (isinstance(width, str) and width in _WIDTHS):
+        raise ValueError(
+            f"The 'width' parameter of {owner} must be one of {_WIDTHS}. "
+            f"Got {width!r} instead."
+        )
     return _stieltjes_shrink(
         vals,
         n,
@@ -199,5 +304,6 @@ def stieltjes_shrink(
         eta=None if eta is None else float(eta),
         regularize=bool(regularize),
         preserve_trace=bool(preserve_trace),
+        width=width,
         n_jobs=n_jobs,
     )
