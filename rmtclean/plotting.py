@@ -359,7 +359,7 @@ def plot_spectrum(
     and the bars are on the same scale for N > T as well. Signal
     eigenvalues are marked on the axis; the vertical line is the fitted
     upper edge of the bulk. Eigenvalues beyond 5 times that edge are left
-    out of the axes and counted in a note in the lower right corner.
+    out of the axes and counted in a note on the right.
 
     Examples
     --------
@@ -420,10 +420,10 @@ def plot_spectrum(
     if far.size:
         ax.annotate(
             f"{far.size} beyond, up to {far.max():.3g} \u2192",
-            xy=(1.0, 0.02),
+            xy=(0.98, 0.5),
             xycoords="axes fraction",
             ha="right",
-            va="bottom",
+            va="center",
             fontsize=8,
         )
     ax.set_xlabel("sample eigenvalue")
