@@ -153,7 +153,7 @@ def main(argv=None) -> None:
     parser.add_argument("--samples", type=int, default=200)
     parser.add_argument("--tall-rows", type=int, default=2_000_000)
     parser.add_argument("--tall-features", type=int, default=200)
-    parser.add_argument("--chunk-rows", type=int, default=100_000)
+    parser.add_argument("--chunk-rows", type=int, default=50_000)
     parser.add_argument("--memory-rows", type=int, default=200_000)
     parser.add_argument("--repeats", type=int, default=3)
     parser.add_argument("--seed", type=int, default=0)

@@ -128,10 +128,10 @@ def dask_sample_spectrum(
     Z = Xc * (np.sqrt(1.0 / dof) if w is None else da.sqrt(w / dof)[:, None])
     if route == "auto":
         route = "gram" if (n_features > n_rows or n_features > DENSE_LIMIT) else "dense"
-    finite = da.isfinite(X).all()
     if route == "dense":
-        scatter, ok = dask.compute(Z.T @ Z, finite)
+        scatter, ok = _blockwise_scatter(X, w, location, dof)
     elif route == "gram":
+        finite = da.isfinite(X).all()
         scatter, ok = dask.compute(Z @ Z.T, finite)
     else:
         raise ValueError(
@@ -165,6 +165,51 @@ def dask_sample_spectrum(
         scale=scale,
         route=route,
     )
+
+
+def _block_scatter(block, weights, location, dof):
+    centred = np.asarray(block, dtype=np.float64) - location
+    if weights is None:
+        centred *= np.sqrt(1.0 / dof)
+    else:
+        centred *= np.sqrt(np.asarray(weights, dtype=np.float64) / dof)[:, None]
+    return centred.T @ centred, bool(np.isfinite(block).all())
+
+
+def _add_pair(a, b):
+    return a[0] + b[0], a[1] and b[1]
+
+
+def _blockwise_scatter(X, w, location, dof):
+    """The centred scatter matrix and a finiteness flag in one pass.
+
+    Each row block is centred, scaled and reduced to its N x N product inside
+    one task, and the products are summed in a binary tree, so a worker holds
+    one block and a few N x N partial sums at a time (a graph of separate
+    subtract, scale and matmul tasks let the threaded scheduler keep many
+    blocks alive at once: 1.3 GB peak for 2e6 x 200 rows).
+    """
+    import dask
+
+    X = X.rechunk({1: -1})
+    blocks = X.to_delayed().ravel()
+    if w is None:
+        wblocks = [None] * len(blocks)
+    else:
+        wblocks = w.rechunk((X.chunks[0],)).to_delayed().ravel()
+    parts = [
+        dask.delayed(_block_scatter)(b, wb, location, dof)
+        for b, wb in zip(blocks, wblocks, strict=True)
+    ]
+    while len(parts) > 1:
+        pairs = [
+            dask.delayed(_add_pair)(parts[i], parts[i + 1])
+            for i in range(0, len(parts) - 1, 2)
+        ]
+        if len(parts) % 2:
+            pairs.append(parts[-1])
+        parts = pairs
+    return dask.compute(parts[0])[0]
 
 
 def _column_scale(var: np.ndarray) -> np.ndarray:
