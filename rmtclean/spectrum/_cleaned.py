@@ -190,7 +190,11 @@ class CleanedSpectrum:
             out = (V * (dp - cp)) @ V.T
             out[np.diag_indices_from(out)] += cp
         else:
-            out = (V * dp) @ V.T
+            # W W' with W = V diag(sqrt(d^p)): numpy hands ``W @ W.T`` to
+            # BLAS syrk, half the flops of a general product, and the
+            # result is symmetric by construction.
+            root = V * np.sqrt(dp)
+            out = root @ root.T
         out = 0.5 * (out + out.T)
         if self.scale is not None:
             s = self.scale ** (1.0 if power >= 0 else -1.0) if abs(power) == 1 else None
