@@ -338,6 +338,38 @@ def _as_cleaners(cleaners) -> dict:
     return out
 
 
+def _window_task(train, test, start, cleaners, rules):
+    return evaluate_window(train, test, cleaners, rules, start=start)
+
+
+def _run_on_dask(client, X, cleaners, rules, starts, window, step):
+    if isinstance(client, str):
+        if client != "current":
+            raise ValueError(
+                "The 'client' parameter of backtest must be a dask.distributed "
+                f"Client, 'current' or None. Got {client!r} instead."
+            )
+        from distributed import get_client
+
+        client = get_client()
+    if not hasattr(client, "map") or not hasattr(client, "gather"):
+        raise TypeError(
+            "The 'client' parameter of backtest must be a dask.distributed "
+            f"Client, 'current' or None. Got {type(client).__name__} instead."
+        )
+    starts = list(starts)
+    futures = client.map(
+        _window_task,
+        [X[s - window : s] for s in starts],
+        [X[s : s + step] for s in starts],
+        starts,
+        cleaners=cleaners,
+        rules=rules,
+        pure=False,
+    )
+    return client.gather(futures)
+
+
 def backtest(
     returns,
     cleaners,
@@ -346,6 +378,7 @@ def backtest(
     step: int = 21,
     rules: Sequence[str] = ("min_variance",),
     n_jobs: int | None = None,
+    client=None,
     periods_per_year: float = 252.0,
 ) -> BacktestResult:
     r"""Rolling-window backtest of covariance cleaners.
@@ -367,7 +400,12 @@ def backtest(
         baseline is always included.
     n_jobs : int or None, default=None
         joblib workers over rebalance dates (``None``: one, ``-1``: all
-        cores).
+        cores). Ignored when ``client`` is given.
+    client : dask.distributed.Client, "current" or None, default=None
+        Run the windows on a dask cluster instead of joblib: a ``Client``,
+        or ``"current"`` for the default client of this process
+        (``distributed.get_client()``). Each window is one task
+        (:func:`evaluate_window`); results equal the local run.
     periods_per_year : float, default=252
         For annualising (252 for daily returns, 12 for monthly).
 
@@ -423,12 +461,15 @@ def backtest(
         )
     cleaners = _as_cleaners(cleaners)
     starts = range(window, n_periods, step)
-    results = Parallel(n_jobs=n_jobs)(
-        delayed(evaluate_window)(
-            X[s - window : s], X[s : s + step], cleaners, rules, start=s
+    if client is not None:
+        results = _run_on_dask(client, X, cleaners, rules, starts, window, step)
+    else:
+        results = Parallel(n_jobs=n_jobs)(
+            delayed(evaluate_window)(
+                X[s - window : s], X[s : s + step], cleaners, rules, start=s
+            )
+            for s in starts
         )
-        for s in starts
-    )
     keys = list(results[0].realised)
     rows = np.arange(window, n_periods)
     frame = pd.DataFrame(

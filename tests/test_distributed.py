@@ -93,3 +93,36 @@ def test_dask_bad_input():
         KeepSample().fit(da.ones((10, 3), chunks=(5, 3), dtype=complex))
     with pytest.raises(ValueError, match="at least 2"):
         KeepSample().fit(da.ones((1, 3), chunks=(1, 3)))
+
+
+def test_backtest_on_local_cluster_equals_local_run(rng, client):
+    from sklearn.covariance import LedoitWolf
+
+    from rmtclean.backtest import backtest
+
+    X = 0.01 * rng.standard_normal((160, 12))
+    cleaners = {"LW": LedoitWolf(), "kernel": rmtclean.KernelShrink()}
+    local = backtest(X, cleaners, window=60, step=25)
+    remote = backtest(X, cleaners, window=60, step=25, client=client)
+    current = backtest(X, cleaners, window=60, step=25, client="current")
+    for other in (remote, current):
+        np.testing.assert_allclose(
+            other.returns.to_numpy(), local.returns.to_numpy(), rtol=1e-12
+        )
+        np.testing.assert_allclose(
+            other.log_likelihood.to_numpy(),
+            local.log_likelihood.to_numpy(),
+            rtol=1e-12,
+        )
+
+
+def test_backtest_refuses_a_bad_client(rng):
+    from sklearn.covariance import LedoitWolf
+
+    from rmtclean.backtest import backtest
+
+    X = rng.standard_normal((80, 4))
+    with pytest.raises(ValueError, match="'client' parameter of backtest"):
+        backtest(X, [LedoitWolf()], window=40, step=20, client="cluster")
+    with pytest.raises(TypeError, match="'client' parameter of backtest"):
+        backtest(X, [LedoitWolf()], window=40, step=20, client=3)
