@@ -82,7 +82,7 @@ def part_gram(args) -> None:
 
 
 _CHILD = r"""
-import json, resource, sys, time
+import json, sys, time
 import dask, dask.array as da, numpy as np
 import rmtclean
 rows, n, chunk, cleaner, seed = sys.argv[1:6]
@@ -94,7 +94,11 @@ with dask.config.set(scheduler="threads", num_workers=2):
     start = time.perf_counter()
     cls().fit(X)
     secs = time.perf_counter() - start
-peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0
+# VmHWM is this process's own high-water mark; ru_maxrss would also count the
+# parent's peak, which Linux carries into a child across fork + exec.
+with open("/proc/self/status") as fh:
+    hwm = next(line for line in fh if line.startswith("VmHWM"))
+peak = int(hwm.split()[1]) / 1024.0
 print(json.dumps({"seconds": secs, "peak_mb": peak}))
 """
 
