@@ -76,6 +76,13 @@ _DOC = r"""Rotationally invariant estimator (RIE) of the covariance.
 
     Notes
     -----
+    Known weakness: within a few percent of N = T - 1 (the hard edge of
+    the spectrum at zero) the estimate degrades badly: on pure Gaussian
+    noise with N = 100 and T = 100 the Frobenius loss was 13.3, against
+    1.01 for the sample covariance (T = 50: 0.024; T = 200: 0.007).
+    Prefer :class:`KernelShrink`, whose default guards that ratio, when
+    N / T is near one.
+
     Works on the gram route (``T < N``) without an N x N matrix. Sample
     eigenvalues that are zero beyond what the sample size explains
     (collinear columns) are treated as null space: the rank replaces the
