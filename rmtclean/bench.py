@@ -728,7 +728,9 @@ def run_benchmark(
         JSON-lines results file. Cells already in it (same design, N,
         ratio, repetition, cleaner, seed, distribution, df and rotation)
         are read back instead of recomputed, so rerunning an interrupted
-        run finishes it. ``None`` keeps the results in memory only.
+        run finishes it. The key holds no code version: after changing a
+        cleaner, write to a new file. ``None`` keeps the results in memory
+        only.
     n_jobs : int, default=1
         Draws run in parallel by joblib (``-1``: all cores). Timings are
         cleanest with 1.
