@@ -15,6 +15,7 @@ import numpy as np
 from rmtclean.spectrum._sample import (
     DENSE_LIMIT,
     SampleSpectrum,
+    column_scale,
     complete_basis,
     gram_pairs,
 )
@@ -144,14 +145,14 @@ def dask_sample_spectrum(
     scale = None
     if route == "dense":
         if standardize:
-            scale = _column_scale(np.diag(scatter).copy())
+            scale = column_scale(np.diag(scatter).copy())
             scatter = scatter / np.outer(scale, scale)
         vals, vecs = np.linalg.eigh(scatter)
         vals = np.maximum(vals[::-1][:rank], 0.0)
         vecs = vecs[:, ::-1][:, :rank]
     else:
         if standardize:
-            scale = _column_scale(np.asarray((Z * Z).sum(axis=0).compute()))
+            scale = column_scale(np.asarray((Z * Z).sum(axis=0).compute()))
             Z = Z / scale
             scatter = np.asarray((Z @ Z.T).compute())
         vals, coef, tiny = gram_pairs(scatter, rank)
@@ -210,13 +211,3 @@ def _blockwise_scatter(X, w, location, dof):
             pairs.append(parts[-1])
         parts = pairs
     return dask.compute(parts[0])[0]
-
-
-def _column_scale(var: np.ndarray) -> np.ndarray:
-    bad = np.flatnonzero(~(var > 0))
-    if bad.size:
-        raise ValueError(
-            "standardize=True needs every column to vary, but "
-            f"{bad.size} column(s) have zero variance (first index {int(bad[0])})."
-        )
-    return np.sqrt(var)

@@ -152,15 +152,7 @@ class SampleSpectrum:
             Z = Xc * np.sqrt(probs * (total / dof))[:, None]
         scale = None
         if standardize:
-            var = np.einsum("ij,ij->j", Z, Z)
-            bad = np.flatnonzero(~(var > 0))
-            if bad.size:
-                raise ValueError(
-                    "standardize=True needs every column to vary, but "
-                    f"{bad.size} column(s) have zero variance (first index "
-                    f"{int(bad[0])})."
-                )
-            scale = np.sqrt(var)
+            scale = column_scale(np.einsum("ij,ij->j", Z, Z))
             Z /= scale
             Xc /= scale
         rank = min(n_features, n_positive - (0 if assume_centered else 1))
@@ -193,6 +185,18 @@ class SampleSpectrum:
             samples=Xc if keep_samples else None,
             weights=None if sample_weight is None else np.asarray(sample_weight, float),
         )
+
+
+def column_scale(var: np.ndarray) -> np.ndarray:
+    """Column standard deviations from variances; zero variance is an error."""
+    bad = np.flatnonzero(~(var > 0))
+    if bad.size:
+        raise ValueError(
+            "standardize=True needs every column to vary, but "
+            f"{bad.size} column(s) have zero variance (first index "
+            f"{int(bad[0])})."
+        )
+    return np.sqrt(var)
 
 
 def _gram_eigh(Z: np.ndarray, rank: int) -> tuple[np.ndarray, np.ndarray]:
