@@ -232,7 +232,7 @@ def table(
             note = note[:110]
         lines.append(
             f"  {name:<16} {value:9.2f} {se:7.2f} {mean:10.4g} {loss_se:8.2g} "
-            f"{ms:8.2f}  {note}"
+            f"{ms:8.2f}  {note}".rstrip()
         )
     return lines, result
 
