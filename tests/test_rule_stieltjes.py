@@ -27,14 +27,19 @@ def _mp_g(z, q, s2):
 def _direct_rie(lam, T, N, eta, regularize, preserve_trace, relative=False):
     """Bun et al. (2016) eq. and Bun, Bouchaud & Potters (2017) regularisation,
     written out with naive loops (REFERENCES item 8 [memory]); eta absolute.
-    ``relative``: rmtclean's width eta_i = eta_rel lambda_i, eta_rel = eta N / tr S
-    (the published formula otherwise)."""
+    Null value: Ledoit & Peche (2011), 1/((q - 1) mbar(0)), mbar(0) the mean
+    of 1/lambda_j [memory]. ``relative``: rmtclean's width
+    eta_i = eta_rel max(lambda_i, tau tr(S)/N), eta_rel = eta N / tr S,
+    tau = max(0, 1 - |1 - sqrt q| / sqrt(eta_rel)) (the published formula
+    otherwise)."""
     lam = [float(v) for v in lam]
     m, q = len(lam), N / T
-    rel = eta * N / sum(lam)
+    mean = sum(lam) / N
+    rel = eta / mean
+    tau = max(0.0, 1 - abs(1 - math.sqrt(q)) / math.sqrt(rel))
 
     def point(li):
-        return complex(li, -(rel * li if relative else eta))
+        return complex(li, -(rel * max(li, tau * mean) if relative else eta))
 
     xi = []
     for li in lam:
@@ -51,7 +56,7 @@ def _direct_rie(lam, T, N, eta, regularize, preserve_trace, relative=False):
             xi[i] *= max(1.0, gamma)
     null = None
     if m < N:
-        mbar0 = sum(lj / (lj * lj + eta * eta) for lj in lam) / m
+        mbar0 = sum(1 / lj for lj in lam) / m
         null = 1 / ((q - 1) * mbar0)
     if preserve_trace:
         total = xi.sum() + (0 if null is None else (N - m) * null)
