@@ -370,14 +370,41 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
             store = n_features <= DENSE_STORE_LIMIT
         if store:
             self.covariance_ = result.to_dense().astype(out_dtype, copy=False)
+            # Densified on first access (another N x N product), same numbers.
             self.precision_ = (
-                result.to_dense(-1.0).astype(out_dtype, copy=False)
-                if self.store_precision
-                else None
+                _DeferredPrecision(result, out_dtype) if self.store_precision else None
             )
         else:
             self.covariance_ = None
             self.precision_ = None
+
+    # -- the precision, densified on first access -------------------------
+    @property
+    def precision_(self):
+        """The dense precision matrix, or None when not stored.
+
+        A fit stores it as the cleaned spectrum's inverse and forms the
+        N x N array on first access (then keeps it), so a fit whose caller
+        reads only ``covariance_`` or uses ``spectrum_`` skips that product.
+        """
+        try:
+            value = self.__dict__["_precision"]
+        except KeyError:
+            raise AttributeError(
+                f"{type(self).__name__!r} object has no attribute 'precision_'"
+            ) from None
+        return value.get() if isinstance(value, _DeferredPrecision) else value
+
+    @precision_.setter
+    def precision_(self, value):
+        self.__dict__["_precision"] = value
+
+    @precision_.deleter
+    def precision_(self):
+        try:
+            del self.__dict__["_precision"]
+        except KeyError:
+            raise AttributeError("precision_") from None
 
     # -- using the fit ----------------------------------------------------
     def get_precision(self):
@@ -476,6 +503,21 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         tags = super().__sklearn_tags__()
         tags.transformer_tags.preserves_dtype = ["float64", "float32"]
         return tags
+
+
+class _DeferredPrecision:
+    """``spectrum.to_dense(-1)`` in ``dtype``, computed once on first use."""
+
+    def __init__(self, spectrum: CleanedSpectrum, dtype):
+        self._spectrum = spectrum
+        self._dtype = dtype
+        self._value = None
+
+    def get(self) -> np.ndarray:
+        if self._value is None:
+            dense = self._spectrum.to_dense(-1.0)
+            self._value = dense.astype(self._dtype, copy=False)
+        return self._value
 
 
 def common_params_doc() -> str:

@@ -142,37 +142,50 @@ class SampleSpectrum:
             )
         if assume_centered:
             location = np.zeros(n_features)
-            Xc = X.copy()
+            Xc = X  # the caller's array: never written in place
         else:
             location = X.mean(axis=0) if probs is None else probs @ X
             Xc = X - location
-        if probs is None:
-            Z = Xc * np.sqrt(1.0 / dof)
-        else:
-            Z = Xc * np.sqrt(probs * (total / dof))[:, None]
-        scale = None
-        if standardize:
-            scale = column_scale(np.einsum("ij,ij->j", Z, Z))
-            Z /= scale
-            Xc /= scale
         rank = min(n_features, n_positive - (0 if assume_centered else 1))
         rank = max(rank, 1)
         if route == "auto":
             route = (
                 "gram" if (n_features > n_rows or n_features > DENSE_LIMIT) else "dense"
             )
-        if route == "dense":
-            cov = Z.T @ Z
-            vals, vecs = np.linalg.eigh(cov)
-            vals = vals[::-1][:rank]
-            vecs = vecs[:, ::-1][:, :rank]
-        elif route == "gram":
-            vals, vecs = _gram_eigh(Z, rank)
-        else:
+        if route not in ("dense", "gram"):
             raise ValueError(
                 "route must be one of 'auto', 'dense' or 'gram'. "
                 f"Got {route!r} instead."
             )
+        scale = None
+        if route == "dense" and probs is None:
+            # No scaled T x N copy: Xc' Xc (BLAS syrk: numpy passes a matrix
+            # times its own transposed view to it), then divide the N x N result.
+            cov = Xc.T @ Xc
+            cov *= 1.0 / dof
+            if standardize:
+                scale = column_scale(cov.diagonal().copy())
+                cov /= np.outer(scale, scale)
+        else:
+            if probs is None:
+                Z = Xc * np.sqrt(1.0 / dof)
+            else:
+                Z = Xc * np.sqrt(probs * (total / dof))[:, None]
+            if standardize:
+                scale = column_scale(np.einsum("ij,ij->j", Z, Z))
+                Z /= scale
+            cov = Z.T @ Z if route == "dense" else None
+        if standardize and keep_samples:
+            Xc = Xc / scale
+        elif keep_samples and Xc is X:
+            Xc = X.copy()
+        if route == "dense":
+            vals, vecs = np.linalg.eigh(cov)
+            del cov
+            vals = vals[::-1][:rank]
+            vecs = vecs[:, ::-1][:, :rank]
+        else:
+            vals, vecs = _gram_eigh(Z, rank)
         vals = np.maximum(vals, 0.0)
         return cls(
             eigenvalues=np.ascontiguousarray(vals),
