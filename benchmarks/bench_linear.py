@@ -21,6 +21,7 @@ Run::
 
     python benchmarks/bench_linear.py            # N = 2000, T = 4000
     python benchmarks/bench_linear.py --n-features 500 --n-samples 1000 --repeats 7
+    python benchmarks/bench_linear.py --threads 1   # one BLAS thread
 """
 
 from __future__ import annotations
@@ -34,7 +35,7 @@ import numpy as np
 import scipy
 import sklearn
 from sklearn.covariance import LedoitWolf
-from threadpoolctl import threadpool_info
+from threadpoolctl import threadpool_info, threadpool_limits
 
 from rmtclean import LinearShrink
 
@@ -79,7 +80,15 @@ def main(argv=None) -> None:
     parser.add_argument("--n-samples", type=int, default=4000, help="T")
     parser.add_argument("--repeats", type=int, default=5)
     parser.add_argument("--seed", type=int, default=0)
+    parser.add_argument(
+        "--threads", type=int, default=None, help="limit BLAS/OpenMP threads"
+    )
     args = parser.parse_args(argv)
+    with threadpool_limits(limits=args.threads):
+        run(args)
+
+
+def run(args) -> None:
 
     print("threadpool_info():")
     pprint(threadpool_info())
