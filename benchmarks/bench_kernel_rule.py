@@ -142,17 +142,22 @@ def main() -> None:
     # 2. numba vs numpy, interleaved
     small = spectrum(args.compare_n, ratio)
     n_small = args.compare_n / ratio
-    t_numba, t_numpy = [], []
+    t_numba, t_numba1, t_numpy = [], [], []
     for _ in range(args.repeats):
         t_numba.append(timed(lambda: kernel_shrink(small, n_small, args.compare_n)))
+        t_numba1.append(
+            timed(lambda: kernel_shrink(small, n_small, args.compare_n, n_jobs=1))
+        )
         t_numpy.append(
             timed(lambda: kernel_shrink(small, n_small, args.compare_n, engine="numpy"))
         )
-    a, b = np.median(t_numba), np.median(t_numpy)
+    a, a1, b = np.median(t_numba), np.median(t_numba1), np.median(t_numpy)
     print(
         f"\n[2] {args.compare_n} eigenvalues, interleaved x{args.repeats}: "
-        f"numba {a:.4f} s, numpy (row blocks) {b:.4f} s, ratio {b / a:.1f}x; "
-        "goal >= 10x"
+        f"numba {a:.4f} s ({numba.get_num_threads()} threads), {a1:.4f} s "
+        f"(1 thread), numpy (row blocks) {b:.4f} s; ratio {b / a:.1f}x "
+        f"({b / a1:.1f}x on one thread); goal >= 10x. On a loaded machine the "
+        "threaded figure at this small size suffers most."
     )
     if args.numpy_full:
         t_full = timed(lambda: kernel_shrink(lam, n, n_eig, engine="numpy"))

@@ -5,14 +5,17 @@ float64 arrays, compiled with ``error_model="numpy"`` (a division by zero
 gives inf or NaN, as in numpy, instead of raising). Kernels never write
 into their inputs and allocate only O(N) outputs and scratch. The outer loop
 over evaluation points is a ``prange`` (the points are independent); no
-``fastmath``, so NaN and inf propagate.
+``fastmath`` beyond reassociating plain sums, so NaN and inf propagate.
 
 Kernels
 -------
-epanechnikov_density_hilbert(x, centres, bandwidths, window_start, window_stop)
+epanechnikov_density_hilbert(x, centres, bandwidths)
     Epanechnikov kernel density estimate and the matching estimate of the
     Hilbert transform, with one bandwidth per kernel centre (Ledoit & Wolf
-    2020).
+    2020). Blocks of centres far from a point enter through a Laurent
+    expansion (a one-level fast multipole scheme), the rest pair by pair in
+    a vectorised loop: 20,000 sorted eigenvalues take about 0.2 s on one
+    core (``benchmarks/bench_kernel_rule.py``).
 resolvent_sum(centres, eta)
     Sample Stieltjes transform g(z_i) = (1/m) sum_j 1/(z_i - lambda_j) at
     z_i = lambda_i - i eta (Bun, Allez, Bouchaud & Potters 2016).
@@ -40,8 +43,10 @@ __all__ = [
 ]
 
 SQRT5 = math.sqrt(5.0)
+SQRT2 = math.sqrt(2.0)
 # Epanechnikov kernel with unit variance: k(x) = 3/(4 sqrt5) (1 - x^2/5)^+.
 KERNEL_PEAK = 3.0 / (4.0 * SQRT5)
+_PEAK_OVER_PI = KERNEL_PEAK / math.pi
 # Far field. For |u| >= SERIES_CUT the Hilbert transform of the kernel is
 # summed as its moment expansion in w = 5/u^2 <= SERIES_W = 5/64, exact to
 # rounding with 14 terms (tail < 1e-18 relative). It avoids a logarithm where
@@ -105,49 +110,191 @@ def epanechnikov_hilbert(u: float) -> float:
     return _near_hilbert(u)
 
 
-@njit(cache=True, error_model="numpy", inline="always")
-def _far_block(xi, centres, bandwidths, start, n_blocks, lanes):
-    """Far-field sums of _far_series(w)/d over ``n_blocks`` blocks of pairs.
+# Logarithm for the pair loop, written out so that the loop vectorises (a
+# call to the C library's log does not): y = 2^e m with m in [sqrt(1/2),
+# sqrt(2)), log m = 2 atanh(s) = sum_k 2 s^(2k+1)/(2k+1), s = (m-1)/(m+1),
+# |s| <= 0.1716, 11 terms (tail < 1e-19), and e log 2 in two parts (the
+# split of fdlibm's e_log.c) so that the sum is accurate to a few ulp.
+_LN2_HI = 6.93147180369123816490e-01
+_LN2_LO = 1.90821492927058770002e-10
+_MANTISSA = 0x000FFFFFFFFFFFFF
+_EXPONENT_ONE = 0x3FF0000000000000
+_C0, _C1, _C2, _C3, _C4, _C5 = (2.0 / (2 * k + 1) for k in range(6))
+_C6, _C7, _C8, _C9, _C10 = (2.0 / (2 * k + 1) for k in range(6, 11))
 
-    Block k covers j in [start + 8k, start + 8k + 8) and accumulates into
-    ``lanes`` (independent accumulators, so that the loop vectorises without
-    a reassociated sum). A pair in the near field (w > SERIES_W) or a NaN
-    turns the sums into NaN: the caller then rescans the point.
+
+@njit(cache=True, error_model="numpy", inline="always")
+def _log_in_place(values, bits, exponent, n):
+    """values[:n] = log(values[:n]) for positive normal finite values.
+
+    ``bits`` is ``values.view(np.int64)``; ``exponent`` is scratch. Other
+    inputs (0, inf, NaN, subnormals) give finite garbage: the caller masks
+    them.
     """
-    for k in range(n_blocks):
-        jb = start + 8 * k
-        for lane in range(8):  # literal: a global bound stops the vectoriser
-            d = xi - centres[jb + lane]
-            t = bandwidths[jb + lane] / d
-            w = 5.0 * t * t
-            # _far_series written out: a call here stops the vectoriser
-            p = _S0 + w * (_S1 + w * (_S2 + w * (_S3 + w * (_S4 + w * (_S5 + w * (
-                _S6 + w * (_S7 + w * (_S8 + w * (_S9 + w * (_S10 + w * (
-                    _S11 + w * (_S12 + w * _S13))))))))))))  # fmt: skip
-            lanes[lane] += p / d if w <= SERIES_W else np.nan
+    for t in range(n):
+        word = bits[t]
+        exponent[t] = float((word >> 52) - 1023)
+        bits[t] = (word & _MANTISSA) | _EXPONENT_ONE
+    for t in range(n):
+        m = values[t]
+        big = m > SQRT2
+        m = 0.5 * m if big else m
+        e = exponent[t] + 1.0 if big else exponent[t]
+        s = (m - 1.0) / (m + 1.0)
+        s2 = s * s
+        p = _C0 + s2 * (_C1 + s2 * (_C2 + s2 * (_C3 + s2 * (_C4 + s2 * (_C5 + s2 * (
+            _C6 + s2 * (_C7 + s2 * (_C8 + s2 * (_C9 + s2 * _C10)))))))))  # fmt: skip
+        values[t] = e * _LN2_HI + (e * _LN2_LO + s * p)
+
+
+@njit(cache=True, error_model="numpy", fastmath={"reassoc"}, inline="always")
+def _sum(values, n):
+    """Sum of values[:n], reassociated so that it vectorises."""
+    acc = 0.0
+    for t in range(n):
+        acc += values[t]
+    return acc
 
 
 @njit(cache=True, error_model="numpy", inline="always")
-def _mixed_block(xi, centres, inv_bandwidths, start, stop):
-    """Density sum and Hilbert sum over j in [start, stop), any field.
+def _pair_block(xi, centres, inv_bandwidths, start, stop, scratch, bits):
+    """Density sum and Hilbert sum over j in [start, stop), pair by pair.
 
+    Exactly the per-pair values of :func:`epanechnikov_hilbert` (closed form
+    for |u| < SERIES_CUT, the series beyond; a NaN takes the closed form and
+    propagates) and of the kernel. ``scratch`` is a tuple of five arrays of
+    BLOCK_SIZE entries, ``bits`` the int64 view of the first.
     Returns (density sum, near-field Hilbert sum, far-field series sum);
     the far-field sum still lacks its factor -1/pi.
     """
-    f_acc = 0.0
-    near_acc = 0.0
-    far_acc = 0.0
-    for j in range(start, stop):
-        d = xi - centres[j]
-        u = d * inv_bandwidths[j]
+    n = stop - start
+    arg, us, f_terms, near_terms, far_terms = scratch
+    for t in range(n):
+        u = (xi - centres[start + t]) * inv_bandwidths[start + t]
+        us[t] = u
+        arg[t] = abs((SQRT5 - u) / (SQRT5 + u))
+    # far_terms serves as the exponent scratch of the logarithm
+    _log_in_place(arg, bits, far_terms, n)
+    for t in range(n):
+        j = start + t
+        u = us[t]
         au = abs(u)
-        if au >= SERIES_CUT:
-            far_acc += _far_series(5.0 / (u * u)) / d
-        else:  # near field, NaN included so that it propagates
-            near_acc += _near_hilbert(u) * inv_bandwidths[j]
-            if au < SQRT5:
-                f_acc += KERNEL_PEAK * (1.0 - u * u / 5.0) * inv_bandwidths[j]
-    return f_acc, near_acc, far_acc
+        ib = inv_bandwidths[j]
+        one_minus = 1.0 - u * u * 0.2
+        lin = u * (-0.3 / math.pi)
+        closed = lin if au == SQRT5 else lin + _PEAK_OVER_PI * one_minus * arg[t]
+        d = xi - centres[j]
+        w = 5.0 / (u * u)
+        series = _S0 + w * (_S1 + w * (_S2 + w * (_S3 + w * (_S4 + w * (_S5 + w * (
+            _S6 + w * (_S7 + w * (_S8 + w * (_S9 + w * (_S10 + w * (
+                _S11 + w * (_S12 + w * _S13))))))))))))  # fmt: skip
+        is_far = au >= SERIES_CUT
+        f_terms[t] = KERNEL_PEAK * one_minus * ib if au < SQRT5 else 0.0
+        near_terms[t] = 0.0 if is_far else closed * ib
+        far_terms[t] = series / d if is_far else 0.0
+    return _sum(f_terms, n), _sum(near_terms, n), _sum(far_terms, n)
+
+
+# Block expansion of the far field. The centres are cut into blocks of
+# BLOCK_SIZE consecutive entries. With c_J the middle of block J and
+# R_J = max_j (|c_j - c_J| + sqrt5 h_j), every far-field term of the block is
+# analytic outside the disc |x - c_J| <= R_J, and so is their sum
+#     G_J(x) = sum_j P(5 h_j^2 / (x - c_j)^2) / (x - c_j),
+#     P(w) = sum_r 3 w^r / ((2r+1)(2r+3))  (the series of epanechnikov_hilbert),
+# whose Laurent series in D = x - c_J is (1/D) sum_k a_k (R_J/D)^k with
+#     a_k = sum_j sum_{2r <= k} 3/((2r+1)(2r+3)) C(k, 2r) w_j^r t_j^(k-2r),
+#     w_j = 5 h_j^2 / R_J^2,  t_j = (c_j - c_J) / R_J,  |t_j| + sqrt(w_j) <= 1.
+# Each term of a_k is at most (|t_j| + sqrt(w_j))^k <= 1, so |a_k| <= block
+# size and nothing cancels. A block is used through its expansion for the
+# points with |D| >= SEPARATION R_J, where the tail after N_TERMS terms is
+# below SEPARATION^-N_TERMS / (1 - 1/SEPARATION) = 2e-17 relative; the other
+# blocks are summed pair by pair. (A one-level version of the fast multipole
+# method of Greengard & Rokhlin, J. Comput. Phys. 73, 1987, for this kernel.)
+BLOCK_SIZE = 128
+SEPARATION = 2.0
+N_TERMS = 56
+# Points per chunk of the far-field loop (the loop over a chunk vectorises).
+_CHUNK = 64
+
+
+def _laurent_table() -> np.ndarray:
+    """table[r, k] = 3/((2r+1)(2r+3)) C(k, 2r), zero for 2r > k."""
+    table = np.zeros((N_TERMS // 2 + 1, N_TERMS))
+    for k in range(N_TERMS):
+        for r in range(k // 2 + 1):
+            table[r, k] = 3.0 / ((2 * r + 1) * (2 * r + 3)) * math.comb(k, 2 * r)
+    return table
+
+
+LAURENT_TABLE = _laurent_table()
+
+
+@njit(cache=True, parallel=True, error_model="numpy")
+def _block_expansions(centres, bandwidths, table):
+    """Centre, radius and scaled Laurent coefficients of every block."""
+    m = centres.shape[0]
+    n_blocks = (m + BLOCK_SIZE - 1) // BLOCK_SIZE
+    n_terms = table.shape[1]
+    middle = np.empty(n_blocks)
+    radius = np.empty(n_blocks)
+    coef = np.zeros((n_blocks, n_terms))
+    for b in prange(n_blocks):
+        lo = b * BLOCK_SIZE
+        hi = min(m, lo + BLOCK_SIZE)
+        top = centres[lo]
+        bottom = centres[lo]
+        for j in range(lo + 1, hi):
+            top = max(top, centres[j])
+            bottom = min(bottom, centres[j])
+        mid = 0.5 * (top + bottom)
+        rad = 0.0
+        for j in range(lo, hi):
+            rad = max(rad, abs(centres[j] - mid) + SQRT5 * bandwidths[j])
+        middle[b] = mid
+        radius[b] = rad
+        powers_t = np.empty(n_terms)
+        for j in range(lo, hi):
+            t = (centres[j] - mid) / rad
+            w = 5.0 * (bandwidths[j] / rad) ** 2
+            powers_t[0] = 1.0
+            for k in range(1, n_terms):
+                powers_t[k] = powers_t[k - 1] * t
+            w_r = 1.0
+            for r in range(table.shape[0]):
+                for k in range(2 * r, n_terms):
+                    coef[b, k] += table[r, k] * w_r * powers_t[k - 2 * r]
+                w_r *= w
+    return middle, radius, coef
+
+
+@njit(cache=True, error_model="numpy")
+def _far_chunk(x, lo, size, middle, radius, coef):
+    """Sum of the expansions of the blocks separated from x[lo:lo + size].
+
+    Horner's rule runs over the points of the chunk at once: the innermost
+    loops have no dependence between iterations and vectorise.
+    """
+    n_terms = coef.shape[1]
+    far = np.zeros(size)
+    dist = np.empty(size)
+    ratio = np.empty(size)
+    acc = np.empty(size)
+    for b in range(middle.shape[0]):
+        mid = middle[b]
+        rad = radius[b]
+        top = coef[b, n_terms - 1]
+        for i in range(size):
+            dist[i] = x[lo + i] - mid
+            ratio[i] = rad / dist[i]
+            acc[i] = top
+        for k in range(n_terms - 2, -1, -1):
+            ck = coef[b, k]
+            for i in range(size):
+                acc[i] = ck + ratio[i] * acc[i]
+        cut = SEPARATION * rad
+        for i in range(size):
+            far[i] += acc[i] / dist[i] if abs(dist[i]) >= cut else 0.0
+    return far
 
 
 @njit(cache=True, parallel=True, error_model="numpy")
@@ -155,8 +302,6 @@ def epanechnikov_density_hilbert(
     x: np.ndarray,
     centres: np.ndarray,
     bandwidths: np.ndarray,
-    window_start: np.ndarray,
-    window_stop: np.ndarray,
 ) -> tuple[np.ndarray, np.ndarray]:
     """Kernel density and Hilbert-transform estimates at the points ``x``.
 
@@ -165,20 +310,21 @@ def epanechnikov_density_hilbert(
     with k the unit-variance Epanechnikov kernel and H_k its Hilbert
     transform (see :func:`epanechnikov_hilbert`).
 
+    The pairs are summed exactly (closed form with a logarithm for
+    |u| < SERIES_CUT, the moment series beyond), except that a block of
+    BLOCK_SIZE consecutive centres far from x_i enters through its Laurent
+    expansion (see BLOCK_SIZE above), equal to the pair sums to rounding.
+    The cost is O(m (m / BLOCK_SIZE) N_TERMS) for the expansions plus the
+    pairs of the blocks near each point: with centres sorted (as sample
+    eigenvalues are) the blocks are narrow and few are near. Any order is
+    correct; unsorted centres make wide blocks and cost time only.
+
     Parameters
     ----------
     x : ndarray of shape (n_points,)
         Evaluation points.
     centres, bandwidths : ndarray of shape (m,)
         Kernel centres (sample eigenvalues) and their positive bandwidths.
-    window_start, window_stop : ndarray of int64, shape (n_points,)
-        A hint: for point i, the pairs with |x_i - c_j| < SERIES_CUT h_j
-        (near field, where the closed form with a logarithm is used) are
-        expected among j in [window_start[i], window_stop[i]); the pairs
-        outside go through a vectorised far-field loop. A wrong hint costs
-        time, never accuracy: a near pair outside the window is detected and
-        point i is redone over all j. Pass 0 and m (or any empty window) for
-        no hint.
 
     Returns
     -------
@@ -186,28 +332,50 @@ def epanechnikov_density_hilbert(
     """
     n_points = x.shape[0]
     m = centres.shape[0]
+    middle, radius, coef = _block_expansions(centres, bandwidths, LAURENT_TABLE)
+    n_blocks = middle.shape[0]
+    inv_bandwidths = 1.0 / bandwidths
     density = np.empty(n_points)
     hilbert = np.empty(n_points)
-    inv_bandwidths = 1.0 / bandwidths
-    for i in prange(n_points):
-        xi = x[i]
-        lo = max(0, min(window_start[i], m))
-        hi = max(lo, min(window_stop[i], m))
-        # Whole blocks outside the window; the few pairs between a block
-        # boundary and the window go to the window (it handles any pair).
-        below, above = lo // _LANES, (m - hi) // _LANES
-        lo, hi = below * _LANES, m - above * _LANES
-        lanes = np.zeros(_LANES)
-        _far_block(xi, centres, bandwidths, 0, below, lanes)
-        _far_block(xi, centres, bandwidths, hi, above, lanes)
-        outside = 0.0
-        for lane in range(_LANES):
-            outside += lanes[lane]
-        if np.isnan(outside):  # a near pair (or a NaN) outside the window
-            lo, hi, outside = 0, m, 0.0
-        f_acc, near_acc, far_acc = _mixed_block(xi, centres, inv_bandwidths, lo, hi)
-        density[i] = f_acc / m
-        hilbert[i] = (near_acc - (far_acc + outside) / math.pi) / m
+    n_chunks = (n_points + _CHUNK - 1) // _CHUNK
+    for c in prange(n_chunks):
+        lo = c * _CHUNK
+        hi = min(n_points, lo + _CHUNK)
+        size = hi - lo
+        far = _far_chunk(x, lo, size, middle, radius, coef)
+        # The other blocks pair by pair (a NaN is never separated: it lands
+        # here and propagates).
+        arg = np.empty(BLOCK_SIZE)
+        scratch = (
+            arg,
+            np.empty(BLOCK_SIZE),
+            np.empty(BLOCK_SIZE),
+            np.empty(BLOCK_SIZE),
+            np.empty(BLOCK_SIZE),
+        )
+        bits = arg.view(np.int64)
+        for i in range(lo, hi):
+            xi = x[i]
+            f_acc = 0.0
+            near_acc = 0.0
+            far_acc = far[i - lo]
+            for b in range(n_blocks):
+                if not abs(xi - middle[b]) >= SEPARATION * radius[b]:
+                    start = b * BLOCK_SIZE
+                    f_b, near_b, far_b = _pair_block(
+                        xi,
+                        centres,
+                        inv_bandwidths,
+                        start,
+                        min(m, start + BLOCK_SIZE),
+                        scratch,
+                        bits,
+                    )
+                    f_acc += f_b
+                    near_acc += near_b
+                    far_acc += far_b
+            density[i] = f_acc / m
+            hilbert[i] = (near_acc - far_acc / math.pi) / m
     return density, hilbert
 
 

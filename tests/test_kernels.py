@@ -39,6 +39,11 @@ def _density_hilbert_twin(x, c, h):
     return (k / h).mean(axis=1), (_hk_twin(u) / h).mean(axis=1)
 
 
+@numba.njit(error_model="numpy")
+def _log_twin(values, scratch):
+    _kernels._log_in_place(values, values.view(np.int64), scratch, values.size)
+
+
 def _resolvent_twin(c, eta):
     g = (1.0 / ((c - 1j * eta)[:, None] - c[None, :])).mean(axis=1)
     return g.real, g.imag
@@ -47,10 +52,6 @@ def _resolvent_twin(c, eta):
 def _spectrum(rng, n):
     lam = np.sort(rng.chisquare(5, n))[::-1] / 5
     return lam, lam * n ** (-1 / 3)
-
-
-def _no_window(n_points, m):
-    return np.zeros(n_points, np.int64), np.full(n_points, m, np.int64)
 
 
 def _assert_rel(a, b, rtol):
@@ -99,51 +100,79 @@ def test_hilbert_at_the_support_edges():
 @pytest.mark.parametrize("n", [1, 7, 8, 9, 61, 300])
 def test_density_hilbert_matches_numpy_twin(rng, n):
     lam, h = _spectrum(rng, n)
-    start, stop = _no_window(n, n)
-    f, H = _kernels.epanechnikov_density_hilbert(lam, lam, h, start, stop)
+    f, H = _kernels.epanechnikov_density_hilbert(lam, lam, h)
     f_ref, H_ref = _density_hilbert_twin(lam, lam, h)
     _assert_rel(f, f_ref, 1e-12)
     _assert_rel(H, H_ref, 1e-12)
 
 
-def test_density_hilbert_window_hint_never_changes_accuracy(rng):
-    n = 200
+@pytest.mark.parametrize("n", [127, 128, 129, 3000])
+def test_block_expansions_match_the_pair_sums(rng, n):
+    # Sizes around BLOCK_SIZE and one where most blocks go through their
+    # Laurent expansion; points off the spectrum, below, above, at 0 and at
+    # a support edge (the kernel's own split is what the twin evaluates).
     lam, h = _spectrum(rng, n)
-    x = np.concatenate([lam, [0.0, lam[0] * 2, lam[-1] / 3]])
+    x = np.concatenate(
+        [lam, [0.0, lam[0] * 2, lam[-1] / 3, lam[5] + SQRT5 * h[5]]],
+        dtype=float,
+    )
+    f, H = _kernels.epanechnikov_density_hilbert(x, lam, h)
     f_ref, H_ref = _density_hilbert_twin(x, lam, h)
-    k = x.size
-    hints = {
-        "full": _no_window(k, n),
-        "empty": (np.zeros(k, np.int64), np.zeros(k, np.int64)),
-        "wrong": (np.full(k, n // 2, np.int64), np.full(k, n // 2 + 3, np.int64)),
-        "out of range": (np.full(k, -5, np.int64), np.full(k, 10 * n, np.int64)),
-    }
-    for start, stop in hints.values():
-        f, H = _kernels.epanechnikov_density_hilbert(x, lam, h, start, stop)
-        _assert_rel(f, f_ref, 1e-12)
-        _assert_rel(H, H_ref, 1e-12)
+    _assert_rel(f, f_ref, 1e-12)
+    _assert_rel(H, H_ref, 1e-12)
+
+
+def test_order_of_the_centres_costs_time_never_accuracy(rng):
+    # Shuffled centres make wide blocks (nearly all pairs direct); the result
+    # must agree with the sorted order to rounding.
+    lam, h = _spectrum(rng, 1000)
+    order = rng.permutation(lam.size)
+    sorted_ = _kernels.epanechnikov_density_hilbert(lam, lam, h)
+    shuffled = _kernels.epanechnikov_density_hilbert(lam, lam[order], h[order])
+    _assert_rel(shuffled[0], sorted_[0], 1e-13)
+    _assert_rel(shuffled[1], sorted_[1], 1e-13)
+
+
+def test_laurent_table_is_the_binomial_moment_table():
+    # table[r, k] = 3/((2r+1)(2r+3)) C(k, 2r) [computed: Pascal's rule].
+    t = _kernels.LAURENT_TABLE
+    assert t.shape == (_kernels.N_TERMS // 2 + 1, _kernels.N_TERMS)
+    r, k = 3, 10
+    assert t[r, k] == 3 / (7 * 9) * 210
+    assert np.all(t[np.arange(1, t.shape[0]), 0] == 0)
+    # tail bound of the expansion stays below 1e-16
+    sep = _kernels.SEPARATION
+    assert sep ** (-_kernels.N_TERMS) / (1 - 1 / sep) < 1e-16
+
+
+def test_vectorised_logarithm_matches_numpy(rng):
+    # The pair loop's own log against numpy's, over 600 decades.
+    values = np.exp(rng.uniform(-690, 690, 4096))
+    values = np.concatenate([values, [1.0, 2.0, 0.5, np.sqrt(2), 1 - 1e-16]])
+    got = values.copy()
+    scratch = np.empty_like(got)
+    _log_twin(got, scratch)
+    np.testing.assert_allclose(got, np.log(values), rtol=4e-16, atol=4e-16)
 
 
 def test_density_integrates_to_one(rng):
     # Each kernel has unit mass, so f integrates to 1 [computed].
     lam, h = _spectrum(rng, 50)
     grid = np.linspace(lam[-1] - 3 * h[-1], lam[0] + 3 * h[0], 400_001)
-    start, stop = _no_window(grid.size, lam.size)
-    f, _ = _kernels.epanechnikov_density_hilbert(grid, lam, h, start, stop)
+    f, _ = _kernels.epanechnikov_density_hilbert(grid, lam, h)
     assert np.trapezoid(f, grid) == pytest.approx(1.0, rel=1e-6)
 
 
 def test_kernels_propagate_nan_and_leave_inputs_alone(rng):
     lam, h = _spectrum(rng, 40)
     lam_copy, h_copy = lam.copy(), h.copy()
-    start, stop = _no_window(40, 40)
-    _kernels.epanechnikov_density_hilbert(lam, lam, h, start, stop)
+    _kernels.epanechnikov_density_hilbert(lam, lam, h)
     _kernels.resolvent_sum(lam, 0.1)
     np.testing.assert_array_equal(lam, lam_copy)
     np.testing.assert_array_equal(h, h_copy)
     bad = lam.copy()
     bad[3] = np.nan
-    f, H = _kernels.epanechnikov_density_hilbert(bad, bad, h, start, stop)
+    f, H = _kernels.epanechnikov_density_hilbert(bad, bad, h)
     assert np.all(np.isnan(H))
     re, im = _kernels.resolvent_sum(bad, 0.1)
     assert np.all(np.isnan(re)) and np.all(np.isnan(im))
@@ -184,12 +213,11 @@ def test_numba_threads_rejects_bad_values():
 
 
 def test_results_do_not_depend_on_the_thread_count(rng):
-    lam, h = _spectrum(rng, 123)
-    start, stop = _no_window(123, 123)
+    lam, h = _spectrum(rng, 1230)
     with _kernels.numba_threads(1):
-        one = _kernels.epanechnikov_density_hilbert(lam, lam, h, start, stop)
+        one = _kernels.epanechnikov_density_hilbert(lam, lam, h)
     with _kernels.numba_threads(-1):
-        all_ = _kernels.epanechnikov_density_hilbert(lam, lam, h, start, stop)
+        all_ = _kernels.epanechnikov_density_hilbert(lam, lam, h)
     np.testing.assert_array_equal(one[0], all_[0])
     np.testing.assert_array_equal(one[1], all_[1])
 

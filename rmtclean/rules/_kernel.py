@@ -31,25 +31,6 @@ _NUMPY_BLOCK_PAIRS = 4_000_000
 
 
 # -- the kernel sums -------------------------------------------------------
-def _near_windows(x: np.ndarray, centres_desc: np.ndarray, h: float):
-    """Index windows holding the near pairs of the numba kernel.
-
-    With ``h_j = h c_j`` and ``c`` descending, the pairs with
-    ``|x - c_j| < SERIES_CUT h_j`` have ``c_j`` in
-    ``(x / (1 + cut h), x / (1 - cut h))``: a contiguous range, widened by
-    1% so that rounding never leaves a near pair outside (the kernel checks
-    anyway).
-    """
-    cut = _kernels.SERIES_CUT * h
-    m = centres_desc.size
-    asc = centres_desc[::-1]
-    low = x / (1.0 + 1.01 * cut)
-    high = x / (1.0 - 1.01 * cut) if 1.01 * cut < 1.0 else np.full_like(x, np.inf)
-    a = np.searchsorted(asc, low, side="left")
-    b = np.searchsorted(asc, high, side="right")
-    return (m - b).astype(np.int64), (m - a).astype(np.int64)
-
-
 def _hilbert_numpy(u: np.ndarray) -> np.ndarray:
     """H_k(u) on an array, with the kernel's split (series for |u| >= cut)."""
     au = np.abs(u)
@@ -100,11 +81,8 @@ def _density_hilbert(x, centres_desc, h, engine="numba", n_jobs=None):
     bandwidths = h * centres
     if engine == "numpy":
         return _density_hilbert_numpy(x, centres, bandwidths)
-    start, stop = _near_windows(x, centres, h)
     with _kernels.numba_threads(n_jobs):
-        return _kernels.epanechnikov_density_hilbert(
-            x, centres, bandwidths, start, stop
-        )
+        return _kernels.epanechnikov_density_hilbert(x, centres, bandwidths)
 
 
 # -- the rule --------------------------------------------------------------
