@@ -16,9 +16,10 @@ epanechnikov_density_hilbert(x, centres, bandwidths)
     expansion (a one-level fast multipole scheme), the rest pair by pair in
     a vectorised loop: 20,000 sorted eigenvalues take about 0.2 s on one
     core (``benchmarks/bench_kernel_rule.py``).
-resolvent_sum(centres, eta)
+resolvent_sum(centres, eta), resolvent_sum_widths(centres, widths)
     Sample Stieltjes transform g(z_i) = (1/m) sum_j 1/(z_i - lambda_j) at
-    z_i = lambda_i - i eta (Bun, Allez, Bouchaud & Potters 2016).
+    z_i = lambda_i - i eta, or with a width per point z_i = lambda_i - i w_i
+    (Bun, Allez, Bouchaud & Potters 2016).
 
 ``KERNELS`` maps these names to the kernels; :func:`numba_threads` maps an
 ``n_jobs`` value to numba's thread count for the duration of a ``with`` block.
@@ -40,6 +41,7 @@ __all__ = [
     "epanechnikov_hilbert",
     "numba_threads",
     "resolvent_sum",
+    "resolvent_sum_widths",
 ]
 
 SQRT5 = math.sqrt(5.0)
@@ -380,31 +382,41 @@ def epanechnikov_density_hilbert(
 
 
 @njit(cache=True, parallel=True, error_model="numpy")
-def resolvent_sum(centres: np.ndarray, eta: float) -> tuple[np.ndarray, np.ndarray]:
-    """Sample Stieltjes transform at z_i = lambda_i - i eta, physics sign.
+def resolvent_sum_widths(
+    centres: np.ndarray, widths: np.ndarray
+) -> tuple[np.ndarray, np.ndarray]:
+    """Sample Stieltjes transform at z_i = lambda_i - i w_i, physics sign.
 
     g(z_i) = (1/m) sum_j 1/(z_i - lambda_j), m = len(centres), evaluated at
-    every centre lambda_i. With d = lambda_i - lambda_j,
-    1/(d - i eta) = (d + i eta)/(d^2 + eta^2).
+    every centre lambda_i with its own width w_i. With d = lambda_i - lambda_j,
+    1/(d - i w_i) = (d + i w_i)/(d^2 + w_i^2).
+
+    Parameters
+    ----------
+    centres : ndarray of shape (m,)
+        The eigenvalues lambda_j (any order).
+    widths : ndarray of shape (m,)
+        The distances w_i > 0 of the points from the real axis.
 
     Returns
     -------
     real, imag : ndarray of shape (m,)
-        Real and imaginary parts of g(z_i); imag > 0 for eta > 0.
+        Real and imaginary parts of g(z_i); imag > 0 for w_i > 0.
     """
     m = centres.shape[0]
     real = np.empty(m)
     imag = np.empty(m)
-    eta2 = eta * eta
     m_lanes = (m // _LANES) * _LANES
     for i in prange(m):
         li = centres[i]
+        wi = widths[i]
+        w2 = wi * wi
         lane_re = np.zeros(_LANES)
         lane_im = np.zeros(_LANES)
         for jb in range(0, m_lanes, _LANES):
-            for lane in range(_LANES):
+            for lane in range(8):  # a literal: a global bound stops the vectoriser
                 d = li - centres[jb + lane]
-                inv = 1.0 / (d * d + eta2)
+                inv = 1.0 / (d * d + w2)
                 lane_re[lane] += d * inv
                 lane_im[lane] += inv
         re_acc = 0.0
@@ -414,12 +426,27 @@ def resolvent_sum(centres: np.ndarray, eta: float) -> tuple[np.ndarray, np.ndarr
             im_acc += lane_im[lane]
         for j in range(m_lanes, m):
             d = li - centres[j]
-            inv = 1.0 / (d * d + eta2)
+            inv = 1.0 / (d * d + w2)
             re_acc += d * inv
             im_acc += inv
         real[i] = re_acc / m
-        imag[i] = eta * im_acc / m
+        imag[i] = wi * im_acc / m
     return real, imag
+
+
+@njit(cache=True, error_model="numpy")
+def resolvent_sum(centres: np.ndarray, eta: float) -> tuple[np.ndarray, np.ndarray]:
+    """Sample Stieltjes transform at z_i = lambda_i - i eta, physics sign.
+
+    :func:`resolvent_sum_widths` with the same width ``eta`` at every point:
+    g(z_i) = (1/m) sum_j 1/(z_i - lambda_j), m = len(centres).
+
+    Returns
+    -------
+    real, imag : ndarray of shape (m,)
+        Real and imaginary parts of g(z_i); imag > 0 for eta > 0.
+    """
+    return resolvent_sum_widths(centres, np.full(centres.shape[0], eta))
 
 
 KERNELS = {

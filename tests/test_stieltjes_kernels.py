@@ -1,11 +1,10 @@
-"""Tests of rmtclean._stieltjes_kernels against a numpy twin written here."""
+"""Tests of rmtclean._kernels.resolvent_sum_widths against a numpy twin."""
 
 import numba
 import numpy as np
 import pytest
 
-from rmtclean._kernels import numba_threads
-from rmtclean._stieltjes_kernels import resolvent_sum_widths
+from rmtclean._kernels import numba_threads, resolvent_sum_widths
 from rmtclean.rules._stieltjes import stieltjes_shrink
 
 

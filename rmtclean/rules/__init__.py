@@ -16,7 +16,7 @@ from rmtclean.rules._spiked import (
     spike_shrink,
 )
 from rmtclean.rules._split import NULL_SPACE_METHODS, split_covariance, split_shrink
-from rmtclean.rules._stieltjes import stieltjes_shrink
+from rmtclean.rules._stieltjes import STIELTJES_ENGINES, stieltjes_shrink
 from rmtclean.rules._types import CleanedEigenvalues
 
 __all__ = [
@@ -27,6 +27,7 @@ __all__ = [
     "NULL_SPACE_METHODS",
     "SHRINKAGE_TARGETS",
     "SPIKE_SHRINKERS",
+    "STIELTJES_ENGINES",
     "eigen_clip",
     "kernel_shrink",
     "linear_shrink",

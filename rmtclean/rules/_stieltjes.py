@@ -13,7 +13,7 @@ import numbers
 import numpy as np
 
 from rmtclean import _kernels
-from rmtclean._stieltjes_kernels import resolvent_sum_widths
+from rmtclean._kernels import resolvent_sum_widths
 from rmtclean.laws import MarchenkoPastur
 from rmtclean.rules._kernel import _check_spectrum
 from rmtclean.rules._types import CleanedEigenvalues
