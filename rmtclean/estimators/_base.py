@@ -30,7 +30,8 @@ DENSE_STORE_LIMIT = 5000
 _COMMON_DOC = """
     store_precision : bool, default=True
         Store the dense precision matrix ``precision_`` (when the covariance
-        is stored densely).
+        is stored densely). It is formed from ``spectrum_`` on first access
+        and then kept; ``get_precision()`` returns the same array.
     assume_centered : bool, default=False
         If True, the data are not demeaned and the sample covariance uses
         ``T`` degrees of freedom instead of ``T - 1``.
