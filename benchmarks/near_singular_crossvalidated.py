@@ -216,8 +216,10 @@ from near_singular_ratio import (  # noqa: E402
 )
 
 from rmtclean._kernels import numba_threads  # noqa: E402
-from rmtclean.rules import linear_shrink  # noqa: E402
-from rmtclean.rules._kernel import kernel_shrink  # noqa: E402
+from rmtclean.rules._combine import (  # noqa: E402
+    _both_rules,
+    crossvalidated_linear_weight,
+)
 from rmtclean.synthetic import make_design  # noqa: E402
 
 CV_RATIOS = [0.9, 0.95, 1.0, 1.05, 1.1]
@@ -227,13 +229,8 @@ _SHORT = {"mixture 1/3/10": "mix", "AR(1) rho=0.5": "ar.5", "AR(1) rho=0.9": "ar
 
 def _both(Xc: np.ndarray, p: int):
     """Eigenvectors, kernel and linear (value, null value) of centred rows."""
-    n = Xc.shape[0] - 1
-    U, s, _ = np.linalg.svd(Xc.T, full_matrices=False)
-    m = min(p, n)
-    lam, U = s[:m] ** 2 / n, U[:, :m]
-    ker = kernel_shrink(lam, n, p)
-    lin = linear_shrink(
-        lam, n, p, intensity="ledoit-wolf", squared_norms=np.sum(Xc**2, axis=1)
+    U, ker, lin = _both_rules(
+        Xc, float(Xc.shape[0] - 1), p, None, "stabilized", None, "benchmark"
     )
     return U, (ker.values, ker.null_value), (lin.values, lin.null_value)
 
@@ -241,27 +238,11 @@ def _both(Xc: np.ndarray, p: int):
 def cv_weight(X: np.ndarray, n_folds: int) -> float:
     """Held-out Frobenius-optimal weight of linear shrinkage, in [0, 1].
 
-    Contiguous folds in row order; each part is centred by its own mean.
+    The library's :func:`rmtclean.rules._combine.crossvalidated_linear_weight`
+    (what ``KernelShrink(near_singular="cross-validated")`` applies):
+    contiguous folds in row order, each part centred by its own mean.
     """
-    T, p = X.shape
-    edges = np.linspace(0, T, n_folds + 1).round().astype(int)
-    num = den = 0.0
-    for a, b in zip(edges[:-1], edges[1:], strict=True):
-        test = X[a:b] - X[a:b].mean(0)
-        train = np.concatenate([X[:a], X[b:]])
-        U, (dk, dk0), (dl, dl0) = _both(train - train.mean(0), p)
-        proj = test @ U
-        o = np.einsum("ij,ij->j", proj, proj) / (test.shape[0] - 1)
-        diff = dl - dk
-        num -= diff @ (dk - o)
-        den += diff @ diff
-        null_dim = p - U.shape[1]
-        if null_dim:
-            null_trace = float(np.sum(test * test)) / (test.shape[0] - 1) - o.sum()
-            diff0 = dl0 - dk0
-            num -= diff0 * (null_dim * dk0 - null_trace)
-            den += null_dim * diff0 * diff0
-    return min(max(num / den, 0.0), 1.0) if den > 0 else 0.0
+    return crossvalidated_linear_weight(X, n_folds)
 
 
 def draw_losses(design, T, dist, reps, seed):
