@@ -42,17 +42,21 @@ def plateau_phase(ratio: float) -> float:
     Returns
     -------
     float
-        ``min(1, max(0, 2 - |c - 1| / 0.1))``; 0 outside the zone
+        ``min(1, max(0, 2 - |c - 1| / 0.1))``; exactly 0 outside the zone
         ``|c - 1| < 0.2`` of the hard-edge floor.
 
     Examples
     --------
     >>> from rmtclean.rules._combine import plateau_phase
-    >>> plateau_phase(1.05), plateau_phase(1.15), plateau_phase(0.7)
+    >>> plateau_phase(1.05), plateau_phase(1.15), plateau_phase(0.8)
     (1.0, 0.5000000000000009, 0.0)
     """
-    half = HARD_EDGE_ZONE / 2
-    return min(1.0, max(0.0, 2.0 - abs(ratio - 1.0) / half))
+    gap = abs(ratio - 1.0)
+    # Exactly 0 on and beyond the border; 1e-12 absorbs the rounding of N/n
+    # (100 / 125 - 1 is -0.19999999999999996 in floating point).
+    if gap >= HARD_EDGE_ZONE - 1e-12:
+        return 0.0
+    return min(1.0, max(0.0, 2.0 - gap / (HARD_EDGE_ZONE / 2)))
 
 
 def expand_zeros(out: CleanedEigenvalues, k: int, p: int) -> CleanedEigenvalues:
@@ -117,6 +121,19 @@ def _fold_edges(n_rows: int, n_folds: int) -> np.ndarray:
     return np.linspace(0, n_rows, n_folds + 1).round().astype(int)
 
 
+def _heldout_variances(test: np.ndarray, test_dof: float, U: np.ndarray):
+    """``o_i = u_i' S_test u_i`` and ``tr(S_test) - sum_i o_i`` (null space).
+
+    Unbiased for ``u_i' Sigma u_i`` and for the null-space part of
+    ``tr(Sigma)`` given training eigenvectors ``U`` independent of the test
+    rows (Abadir, Distaso & Zikes 2014; Lam 2016).
+    """
+    proj = test @ U
+    o = np.einsum("ij,ij->j", proj, proj) / test_dof
+    null_trace = float(np.sum(test * test)) / test_dof - o.sum()
+    return o, null_trace
+
+
 def _weight_terms(X, n_folds, assume_centered, bandwidth, formula, n_jobs, where):
     """Numerator and denominator of the held-out weight, summed over folds."""
     T, p = X.shape
@@ -127,16 +144,12 @@ def _weight_terms(X, n_folds, assume_centered, bandwidth, formula, n_jobs, where
         train, dof = _centred(np.concatenate([X[:a], X[b:]]), assume_centered)
         U, ker, lin = _both_rules(train, dof, p, bandwidth, formula, n_jobs, where)
         dk, dl = ker.values, lin.values
-        proj = test @ U
-        # u_i' S_test u_i: unbiased for u_i' Sigma u_i given the training rows
-        # (independent rows; Abadir, Distaso & Zikes 2014; Lam 2016).
-        o = np.einsum("ij,ij->j", proj, proj) / test_dof
+        o, null_trace = _heldout_variances(test, test_dof, U)
         diff = dl - dk
         num -= diff @ (dk - o)
         den += diff @ diff
         null_dim = p - U.shape[1]
         if null_dim:
-            null_trace = float(np.sum(test * test)) / test_dof - o.sum()
             diff0 = lin.null_value - ker.null_value
             num -= diff0 * (null_dim * ker.null_value - null_trace)
             den += null_dim * diff0 * diff0
