@@ -54,7 +54,9 @@ K = 10, "cv5" K = 5):
   the zone, measured 3.8 (K = 5) and 8.6 (K = 10) times the full-sample
   kernel + linear cleaning (2 shared cores under load; ratios from one run).
 
-Decision: not adopted in the library. The criterion for the option (no
+Decision: not adopted as the default; available as the opt-in
+``KernelShrink(near_singular="cross-validated", n_folds=10)``, whose weight is
+the ``cv_weight`` below (the library function). The criterion for the option (no
 cell in [0.9, 1.1] significantly worse than LedoitWolf, in both losses,
 and no significant harm to the mixture against the default) fails on the
 minimum-variance loss of both AR(1) designs and on the mixture's Frobenius
