@@ -8,7 +8,9 @@ Measures, in one run:
    same sums), interleaved, at ``--compare-n`` eigenvalues (a 20,000 x 20,000
    broadcast is 3.2 GB per temporary, so the numpy path works in row blocks
    and is timed once at the full size as well when ``--numpy-full``);
-3. the numba compile cost: a fresh ``python -c`` process to the first result,
+3. for context, the same at both sizes for stieltjes_shrink (the resolvent
+   sums of Bun, Allez, Bouchaud & Potters 2016), numba against numpy;
+4. the numba compile cost: a fresh ``python -c`` process to the first result,
    run twice with an empty cache directory (the first compiles, the second
    must load the cache), against the same process without the call.
 
@@ -32,7 +34,7 @@ import numpy as np
 from threadpoolctl import threadpool_info
 
 from rmtclean.laws import MarchenkoPastur
-from rmtclean.rules import kernel_shrink
+from rmtclean.rules import kernel_shrink, stieltjes_shrink
 
 
 def spectrum(n_eig: int, ratio: float) -> np.ndarray:
@@ -166,7 +168,26 @@ def main() -> None:
             f"ratio to the numba median {t_full / np.median(times):.1f}x"
         )
 
-    # 3. compile cost paid once
+    # 3. the resolvent sums of stieltjes_shrink, for context
+    t_big = [
+        timed(lambda: stieltjes_shrink(lam, n, n_eig)) for _ in range(args.repeats)
+    ]
+    s_numba, s_numpy = [], []
+    for _ in range(args.repeats):
+        s_numba.append(timed(lambda: stieltjes_shrink(small, n_small, args.compare_n)))
+        s_numpy.append(
+            timed(
+                lambda: stieltjes_shrink(small, n_small, args.compare_n, engine="numpy")
+            )
+        )
+    a, b = np.median(s_numba), np.median(s_numpy)
+    print(
+        f"\n[3] stieltjes_shrink: {n_eig} eigenvalues {np.median(t_big):.3f} s; "
+        f"{args.compare_n} eigenvalues numba {a:.4f} s, numpy {b:.4f} s, "
+        f"ratio {b / a:.1f}x"
+    )
+
+    # 4. compile cost paid once
     with tempfile.TemporaryDirectory() as cache:
         base = first_result_seconds(cache, call=False)
         cold = first_result_seconds(cache, call=True)
@@ -174,7 +195,7 @@ def main() -> None:
         base2 = first_result_seconds(cache, call=False)
     baseline = min(base, base2)
     print(
-        f"\n[3] fresh process to first result (empty NUMBA_CACHE_DIR): "
+        f"\n[4] fresh process to first result (empty NUMBA_CACHE_DIR): "
         f"import only {baseline:.2f} s; first call, compiling {cold:.2f} s "
         f"(+{cold - baseline:.2f} s); second process, cached {warm:.2f} s "
         f"(+{warm - baseline:.2f} s); goal < 1 s extra"
