@@ -15,6 +15,7 @@ import numpy as np
 import pytest
 from scipy.linalg import hadamard
 
+import rmtclean
 from rmtclean.exceptions import RankDeficientWarning, WeakEstimateWarning
 from rmtclean.laws import MarchenkoPastur, TracyWidom, WignerSemicircle
 from tests._registry import CASES
@@ -306,3 +307,17 @@ def test_semicircle_extremes_finite_and_monotone():
     sf = _strict(ws.sf, x)
     assert np.all(np.isfinite(cdf)) and _monotone(cdf) and _monotone(sf, False)
     assert cdf[0] == 0.0 and cdf[-1] == 1.0
+
+
+@pytest.mark.parametrize("name", ["KernelShrink", "StieltjesShrink"])
+def test_variance_that_underflows_gives_the_zero_covariance(name):
+    # One entry of 1e-300: the rows differ, so the base's all-equal check
+    # passes, but the sample variance 1e-600 underflows to 0 and no
+    # eigenvalue is positive; the cleaners return the zero matrix [computed].
+    X = np.zeros((20, 5))
+    X[0, 0] = 1e-300
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        est = getattr(rmtclean, name)().fit(X)
+    np.testing.assert_array_equal(est.covariance_, np.zeros((5, 5)))
+    assert X[0, 0] == 1e-300 and np.count_nonzero(X) == 1
