@@ -34,7 +34,6 @@ from functools import lru_cache
 from pathlib import Path
 
 import numpy as np
-import scipy.linalg
 import sklearn
 from sklearn.base import clone
 from sklearn.covariance import OAS, EmpiricalCovariance, GraphicalLasso, LedoitWolf
@@ -153,8 +152,8 @@ class SampleCovariance(EmpiricalCovariance):
         n_samples = np.shape(X)[0]
         dof = n_samples if self.assume_centered else n_samples - 1
         self.covariance_ = self.covariance_ * (n_samples / dof)
-        if self.store_precision:
-            self.precision_ = scipy.linalg.pinvh(self.covariance_)
+        if self.store_precision:  # pinvh(a C) = pinvh(C) / a: no second pinvh
+            self.precision_ = self.precision_ * (dof / n_samples)
         return self
 
 

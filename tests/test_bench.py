@@ -295,3 +295,26 @@ def test_thread_limit_is_restored():
         assert numba.get_num_threads() == 1
         raise RuntimeError("inside")
     assert numba.get_num_threads() == before
+
+
+def test_sample_covariance_reference_matches_numpy_and_scipy():
+    # The PRIAL reference: np.cov's T - 1 divisor, and the precision equal to
+    # scipy.linalg.pinvh of it (numpy / scipy as reference libraries).
+    import scipy.linalg
+
+    from rmtclean.bench import SampleCovariance
+
+    rng = np.random.default_rng(3)
+    X = rng.standard_normal((40, 12)) @ rng.standard_normal((12, 12))
+    est = SampleCovariance().fit(X)
+    np.testing.assert_allclose(est.covariance_, np.cov(X, rowvar=False), rtol=1e-12)
+    ref = scipy.linalg.pinvh(est.covariance_)
+    np.testing.assert_allclose(
+        est.precision_, ref, rtol=1e-9, atol=1e-12 * np.abs(ref).max()
+    )
+    wide = rng.standard_normal((8, 12))  # rank 7: the pseudo-inverse
+    est = SampleCovariance().fit(wide)
+    ref = scipy.linalg.pinvh(est.covariance_)
+    np.testing.assert_allclose(
+        est.precision_, ref, rtol=1e-8, atol=1e-10 * np.abs(ref).max()
+    )
