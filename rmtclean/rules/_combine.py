@@ -13,19 +13,18 @@ Ledoit & Wolf (2004) are combined as ``d = d_K + t (d_L - d_K)``; the weight
 from __future__ import annotations
 
 import math
-import numbers
 
 import numpy as np
 
 from rmtclean._data import check_data
+from rmtclean._validation import Interval, check_value
 from rmtclean.rules._kernel import (
     _SQRT5,
     HARD_EDGE_ZONE,
     KERNEL_FORMULAS,
-    _check_choice,
     _kernel_shrink,
 )
-from rmtclean.rules._linear import _linear_shrink
+from rmtclean.rules._linear import _check_choice, _linear_shrink
 from rmtclean.rules._types import CleanedEigenvalues
 
 __all__ = ["blend_linear", "crossvalidated_linear_weight", "plateau_phase"]
@@ -249,15 +248,7 @@ def crossvalidated_linear_weight(
     """
     owner = "crossvalidated_linear_weight"
     X = check_data(X, "X", owner)
-    if not (
-        isinstance(n_folds, numbers.Integral)
-        and not isinstance(n_folds, (bool, np.bool_))
-        and n_folds >= 2
-    ):
-        raise ValueError(
-            f"The 'n_folds' parameter of {owner} must be an int in the range "
-            f"[2, inf). Got {n_folds!r} instead."
-        )
+    check_value(n_folds, [Interval(int, 2, None)], "n_folds", owner)
     _check_choice(formula, "formula", owner, KERNEL_FORMULAS)
     return _crossvalidated_linear_weight(
         X, int(n_folds), assume_centered, bandwidth, formula, n_jobs, owner

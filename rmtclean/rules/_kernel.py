@@ -15,6 +15,8 @@ import numpy as np
 
 from rmtclean import _kernels
 from rmtclean._data import check_eigenvalues
+from rmtclean._validation import Interval, check_value
+from rmtclean.rules._linear import _check_choice
 from rmtclean.rules._types import CleanedEigenvalues
 
 __all__ = ["KERNEL_ENGINES", "KERNEL_FORMULAS", "kernel_shrink"]
@@ -175,28 +177,12 @@ def _kernel_shrink(
     return CleanedEigenvalues(d, null_value=null, n_signal=None, details=details)
 
 
+_POSITIVE_FINITE = Interval(float, 0.0, math.inf, closed="neither")
+
+
 def _check_positive_real(value, name, owner):
-    if not (
-        isinstance(value, numbers.Real)
-        and not isinstance(value, (bool, np.bool_))
-        and math.isfinite(value)
-        and value > 0
-    ):
-        raise ValueError(
-            f"The {name!r} parameter of {owner} must be a positive float. "
-            f"Got {value!r} instead."
-        )
+    check_value(value, [_POSITIVE_FINITE], name, owner)
     return float(value)
-
-
-def _check_choice(value, name, owner, choices):
-    if not (isinstance(value, str) and value in choices):
-        allowed = ", ".join(repr(c) for c in choices)
-        raise ValueError(
-            f"The {name!r} parameter of {owner} must be one of {allowed}. "
-            f"Got {value!r} instead."
-        )
-    return value
 
 
 def _check_spectrum(eigenvalues, n_samples, n_features, owner):

@@ -8,14 +8,15 @@ validated :func:`stieltjes_shrink`, and the estimator
 from __future__ import annotations
 
 import math
-import numbers
 
 import numpy as np
 
 from rmtclean import _kernels
 from rmtclean._kernels import resolvent_sum_widths
+from rmtclean._validation import BOOLEAN, check_value
 from rmtclean.laws import MarchenkoPastur
-from rmtclean.rules._kernel import _check_spectrum
+from rmtclean.rules._kernel import _POSITIVE_FINITE, _check_spectrum
+from rmtclean.rules._linear import _check_choice
 from rmtclean.rules._types import CleanedEigenvalues
 
 __all__ = ["STIELTJES_ENGINES", "stieltjes_shrink"]
@@ -333,31 +334,11 @@ def stieltjes_shrink(
     """
     owner = "stieltjes_shrink"
     vals, n = _check_spectrum(eigenvalues, n_samples, n_features, owner)
-    if eta is not None and not (
-        isinstance(eta, numbers.Real)
-        and not isinstance(eta, (bool, np.bool_))
-        and math.isfinite(eta)
-        and eta > 0
-    ):
-        raise ValueError(
-            f"The 'eta' parameter of {owner} must be a positive float or None. "
-            f"Got {eta!r} instead."
-        )
-    for name, value in (("regularize", regularize), ("preserve_trace", preserve_trace)):
-        if not isinstance(value, (bool, np.bool_)):
-            raise ValueError(
-                f"The {name!r} parameter of {owner} must be a bool. "
-                f"Got {value!r} instead."
-            )
-    for name, value, allowed in (
-        ("width", width, _WIDTHS),
-        ("engine", engine, STIELTJES_ENGINES),
-    ):
-        if not (isinstance(value, str) and value in allowed):
-            raise ValueError(
-                f"The {name!r} parameter of {owner} must be one of {allowed}. "
-                f"Got {value!r} instead."
-            )
+    check_value(eta, [_POSITIVE_FINITE, None], "eta", owner)
+    check_value(regularize, [BOOLEAN], "regularize", owner)
+    check_value(preserve_trace, [BOOLEAN], "preserve_trace", owner)
+    _check_choice(width, "width", owner, _WIDTHS)
+    _check_choice(engine, "engine", owner, STIELTJES_ENGINES)
     return _stieltjes_shrink(
         vals,
         n,
