@@ -197,7 +197,6 @@ Frobenius rows::
 
 from __future__ import annotations
 
-import argparse
 import math
 import sys
 import time
@@ -205,7 +204,7 @@ from pathlib import Path
 
 import numpy as np
 from sklearn.covariance import LedoitWolf
-from threadpoolctl import threadpool_info, threadpool_limits
+from threadpoolctl import threadpool_limits
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
@@ -214,15 +213,16 @@ from near_singular_ratio import (  # noqa: E402
     _Losses,
     _optimal_weight,
     _paired,
-    _phase_plateau,
+    cell_seed,
+    setup,
 )
 
 from rmtclean._kernels import numba_threads  # noqa: E402
 from rmtclean.rules._combine import (  # noqa: E402
     _both_rules,
     crossvalidated_linear_weight,
+    plateau_phase,
 )
-from rmtclean.synthetic import make_design  # noqa: E402
 
 CV_RATIOS = [0.9, 0.95, 1.0, 1.05, 1.1]
 COLUMNS = ("LW", "stabilized", "cv5", "cv10", "comb*plat")
@@ -257,7 +257,7 @@ def draw_losses(design, T, dist, reps, seed):
     weights = np.empty((reps, 3))
     cost = np.zeros(3)
     n = T - 1
-    tau = _phase_plateau(N / n)
+    tau = plateau_phase(N / n)
     for r in range(reps):
         X = design.sample(
             T,
@@ -298,19 +298,8 @@ def draw_losses(design, T, dist, reps, seed):
 
 
 def main():
-    parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
-    parser.add_argument("--n-features", type=int, default=150)
-    parser.add_argument("--reps", type=int, default=40)
-    parser.add_argument("--seed", type=int, default=7)
-    args = parser.parse_args()
-    for pool in threadpool_info():
-        print(f"# {pool['internal_api']} {pool.get('version')}: {pool['num_threads']}")
+    args, designs = setup(__doc__.split("\n\n")[0])
     N = args.n_features
-    designs = {
-        "mixture 1/3/10": make_design("mixture", N),
-        "AR(1) rho=0.5": make_design("toeplitz", N, rho=0.5),
-        "AR(1) rho=0.9": make_design("toeplitz", N, rho=0.9),
-    }
     cells = []
     total_cost = np.zeros(3)
     for name, design in designs.items():
@@ -318,7 +307,7 @@ def main():
             for c in CV_RATIOS:
                 i = RATIOS.index(c)  # the seeds of near_singular_ratio.py
                 T = int(round(N / c)) + 1
-                seed = args.seed + 1000 * i + (0 if dist == "gaussian" else 500)
+                seed = cell_seed(args.seed, i, dist)
                 loss, w, cost = draw_losses(design, T, dist, args.reps, seed)
                 total_cost += cost
                 label = "Gaussian" if dist == "gaussian" else "t5"
@@ -336,7 +325,7 @@ def main():
     for name, label, T, _, w in cells:
         cc = np.corrcoef(w[:, 1], w[:, 2])[0, 1] if w[:, 2].std() > 0 else math.nan
         print(
-            f"| {name} | {label} | {N / (T - 1):.3f} | {_phase_plateau(N / (T - 1)):.2f}"
+            f"| {name} | {label} | {N / (T - 1):.3f} | {plateau_phase(N / (T - 1)):.2f}"
             f" | {w[:, 0].mean():.3f} | {w[:, 1].mean():.3f} | {w[:, 2].mean():.3f}"
             f" | {cc:+.2f} |"
         )

@@ -34,6 +34,7 @@ from threadpoolctl import threadpool_info, threadpool_limits
 
 from rmtclean._kernels import numba_threads
 from rmtclean.rules import linear_shrink
+from rmtclean.rules._combine import plateau_phase
 from rmtclean.rules._kernel import HARD_EDGE_ZONE, kernel_shrink
 from rmtclean.synthetic import make_design
 
@@ -43,11 +44,6 @@ COLUMNS = ("LW", "published", "stabilized", "oracle", "comb*lin", "comb*plat")
 
 def _phase_linear(ratio: float) -> float:
     return max(0.0, 1.0 - abs(ratio - 1.0) / HARD_EDGE_ZONE)
-
-
-def _phase_plateau(ratio: float) -> float:
-    half = HARD_EDGE_ZONE / 2
-    return min(1.0, max(0.0, 2.0 - abs(ratio - 1.0) / half))
 
 
 class _Losses:
@@ -122,7 +118,7 @@ def draw_losses(design, T, dist, reps, seed):
         )
         b, b0 = lin.values, lin.null_value
         w = _optimal_weight(a, a0, b, b0, loss)
-        for name, phase in (("comb*lin", _phase_linear), ("comb*plat", _phase_plateau)):
+        for name, phase in (("comb*lin", _phase_linear), ("comb*plat", plateau_phase)):
             t = phase(ratio) * w
             est[name] = (
                 (1 - t) * a + t * b,
@@ -141,8 +137,9 @@ def _paired(x, ref):
     return f"{diff.mean():+.4f} ({se:.4f}) {t:+.1f}"
 
 
-def main():
-    parser = argparse.ArgumentParser(description=__doc__)
+def setup(description: str):
+    """Parse the common options, print the thread pools; (args, designs)."""
+    parser = argparse.ArgumentParser(description=description)
     parser.add_argument("--n-features", type=int, default=150)
     parser.add_argument("--reps", type=int, default=40)
     parser.add_argument("--seed", type=int, default=7)
@@ -155,12 +152,23 @@ def main():
         "AR(1) rho=0.5": make_design("toeplitz", N, rho=0.5),
         "AR(1) rho=0.9": make_design("toeplitz", N, rho=0.9),
     }
+    return args, designs
+
+
+def cell_seed(seed: int, ratio_index: int, dist: str) -> int:
+    """The seed of the draws of one cell (ratio RATIOS[ratio_index], dist)."""
+    return seed + 1000 * ratio_index + (0 if dist == "gaussian" else 500)
+
+
+def main():
+    args, designs = setup(__doc__)
+    N = args.n_features
     cells = []
     for name, design in designs.items():
         for dist in ("gaussian", "student-t"):
             for i, c in enumerate(RATIOS):
                 T = int(round(N / c)) + 1
-                seed = args.seed + 1000 * i + (0 if dist == "gaussian" else 500)
+                seed = cell_seed(args.seed, i, dist)
                 loss = draw_losses(design, T, dist, args.reps, seed)
                 cells.append(
                     (name, "Gaussian" if dist == "gaussian" else "t5", T, loss)
