@@ -50,12 +50,11 @@ SQRT2 = math.sqrt(2.0)
 KERNEL_PEAK = 3.0 / (4.0 * SQRT5)
 _PEAK_OVER_PI = KERNEL_PEAK / math.pi
 # Far field. For |u| >= SERIES_CUT the Hilbert transform of the kernel is
-# summed as its moment expansion in w = 5/u^2 <= SERIES_W = 5/64, exact to
+# summed as its moment expansion in w = 5/u^2 <= 5/64, exact to
 # rounding with 14 terms (tail < 1e-18 relative). It avoids a logarithm where
 # most pairs of eigenvalues lie, and it is more accurate than the closed form,
 # whose two O(u) terms cancel to O(1/u) (relative error ~ eps u^2).
 SERIES_CUT = 8.0
-SERIES_W = 5.0 / (SERIES_CUT * SERIES_CUT)
 # Coefficients 3/((2r+1)(2r+3)) = m_2r / 5^r, m_2r the even moments of k.
 _S0, _S1, _S2, _S3, _S4, _S5, _S6 = (
     3.0 / ((2 * r + 1) * (2 * r + 3)) for r in range(7)
@@ -63,7 +62,7 @@ _S0, _S1, _S2, _S3, _S4, _S5, _S6 = (
 _S7, _S8, _S9, _S10, _S11, _S12, _S13 = (
     3.0 / ((2 * r + 1) * (2 * r + 3)) for r in range(7, 14)
 )
-# Independent accumulators in the far-field loop, so that it vectorises
+# Independent accumulators in the resolvent loop, so that it vectorises
 # without reassociating a single floating-point sum (no fastmath).
 _LANES = 8
 
@@ -187,9 +186,7 @@ def _pair_block(xi, centres, inv_bandwidths, start, stop, scratch, bits):
         closed = lin if au == SQRT5 else lin + _PEAK_OVER_PI * one_minus * arg[t]
         d = xi - centres[j]
         w = 5.0 / (u * u)
-        series = _S0 + w * (_S1 + w * (_S2 + w * (_S3 + w * (_S4 + w * (_S5 + w * (
-            _S6 + w * (_S7 + w * (_S8 + w * (_S9 + w * (_S10 + w * (
-                _S11 + w * (_S12 + w * _S13))))))))))))  # fmt: skip
+        series = _far_series(w)
         is_far = au >= SERIES_CUT
         f_terms[t] = KERNEL_PEAK * one_minus * ib if au < SQRT5 else 0.0
         near_terms[t] = 0.0 if is_far else closed * ib
