@@ -26,6 +26,7 @@ import numpy as np
 import scipy.linalg
 
 from rmtclean.spectrum import SampleSpectrum
+from rmtclean.spectrum._sample import column_scale
 
 __all__ = [
     "MISSING_METHODS",
@@ -418,15 +419,7 @@ def missing_sample_spectrum(
         )
     scale = None
     if standardize:
-        var = np.diag(cov).copy()
-        bad = np.flatnonzero(~(var > 0))
-        if bad.size:
-            raise ValueError(
-                "standardize=True needs every column to vary, but "
-                f"{bad.size} column(s) have zero variance (first index "
-                f"{int(bad[0])})."
-            )
-        scale = np.sqrt(var)
+        scale = column_scale(np.diag(cov).copy())
         cov = cov / np.outer(scale, scale)
     vals, vecs = np.linalg.eigh(cov)
     n_components = max(1, min(n_features, int(math.floor(dof))))

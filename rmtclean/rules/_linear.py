@@ -33,6 +33,7 @@ import numpy as np
 from rmtclean._data import check_data, check_eigenvalues
 from rmtclean._validation import Interval, Options, check_sample_weight, check_value
 from rmtclean.rules._types import CleanedEigenvalues
+from rmtclean.spectrum._sample import column_scale
 
 __all__ = [
     "INTENSITY_METHODS",
@@ -182,7 +183,7 @@ def _intensity(
     if target == "diagonal":
         # F = diag(S): rho = sum_i pi_ii exactly, gamma = sum_{i != j} s_ij^2.
         return _ratio((pi_sum - pi_diag) / n, off2, noise)
-    sig = _column_scales(d)
+    sig = column_scale(d, "The constant-correlation target")
     u = Xc @ (1.0 / sig)
     v = Xc @ sig
     rsum = float(w @ (u * u)) / n  # sum_ij s_ij / (sig_i sig_j)
@@ -199,16 +200,6 @@ def _intensity(
     return _ratio((pi_sum - rho) / n, gamma, noise)
 
 
-def _column_scales(d: np.ndarray) -> np.ndarray:
-    bad = np.flatnonzero(~(d > 0))
-    if bad.size:
-        raise ValueError(
-            "The constant-correlation target needs every column to vary, but "
-            f"{bad.size} column(s) have zero variance (first index {int(bad[0])})."
-        )
-    return np.sqrt(d)
-
-
 def _target(S: np.ndarray, target: str) -> np.ndarray:
     """The target ``F`` built from ``S`` (a new array)."""
     p = S.shape[0]
@@ -217,7 +208,7 @@ def _target(S: np.ndarray, target: str) -> np.ndarray:
         return np.diag(np.full(p, d.sum() / p))
     if target == "diagonal" or p == 1:
         return np.diag(d)
-    sig = _column_scales(d)
+    sig = column_scale(d, "The constant-correlation target")
     rbar = (float(np.sum(S / sig[:, None] / sig[None, :])) - p) / (p * (p - 1))
     F = rbar * np.outer(sig, sig)
     np.fill_diagonal(F, d)

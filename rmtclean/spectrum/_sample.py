@@ -200,12 +200,15 @@ class SampleSpectrum:
         )
 
 
-def column_scale(var: np.ndarray) -> np.ndarray:
-    """Column standard deviations from variances; zero variance is an error."""
+def column_scale(var: np.ndarray, needed_by: str = "standardize=True") -> np.ndarray:
+    """Column standard deviations from variances; zero variance is an error.
+
+    ``needed_by`` names what needs the scales, in the error message.
+    """
     bad = np.flatnonzero(~(var > 0))
     if bad.size:
         raise ValueError(
-            "standardize=True needs every column to vary, but "
+            f"{needed_by} needs every column to vary, but "
             f"{bad.size} column(s) have zero variance (first index "
             f"{int(bad[0])})."
         )
