@@ -40,19 +40,18 @@ from sklearn.covariance import LedoitWolf
 from threadpoolctl import threadpool_info, threadpool_limits
 
 import rmtclean
-from rmtclean.cli import METHODS
+from rmtclean.estimators import CLEANERS
 
 
 def estimators() -> dict:
     """name -> zero-argument constructor, for each importable cleaner."""
     out = {"sk.LedoitWolf": LedoitWolf}
-    for name in METHODS:
-        if hasattr(rmtclean, name):
-            cls = getattr(rmtclean, name)
-            if "random_state" in cls().get_params():
-                out[name] = lambda cls=cls: cls(random_state=0)
-            else:
-                out[name] = cls
+    for entry in CLEANERS:
+        cls = entry.cls
+        if "random_state" in cls().get_params():
+            out[entry.name] = lambda cls=cls: cls(random_state=0)
+        else:
+            out[entry.name] = cls
     return out
 
 

@@ -39,6 +39,7 @@ from sklearn.base import clone
 from sklearn.covariance import OAS, EmpiricalCovariance, GraphicalLasso, LedoitWolf
 
 from rmtclean._validation import Interval, check_value
+from rmtclean.estimators import CLEANERS
 from rmtclean.metrics import (
     frobenius_loss,
     gaussian_log_likelihood,
@@ -164,9 +165,9 @@ class _RmtcleanFactory:
         self.name = name
 
     def __call__(self, random_state):
-        import rmtclean
+        from rmtclean.estimators import find_cleaner
 
-        est = getattr(rmtclean, self.name)()
+        est = find_cleaner(self.name).cls()
         if "random_state" in est.get_params(deep=False):
             est.set_params(random_state=random_state)
         return est
@@ -178,8 +179,8 @@ def available_cleaners() -> dict[str, CleanerSpec]:
     Always holds the oracle, the sample covariance
     (:class:`SampleCovariance`, divisor ``T - 1``) and scikit-learn's
     ``EmpiricalCovariance`` (divisor ``T``), ``LedoitWolf``, ``OAS`` and
-    ``GraphicalLasso`` (the last only up to ``N = 100``), plus each of
-    rmtclean's estimators that is importable from the top-level package.
+    ``GraphicalLasso`` (the last only up to ``N = 100``), plus each
+    cleaner of :data:`rmtclean.estimators.CLEANERS`.
 
     Returns
     -------
@@ -193,8 +194,6 @@ def available_cleaners() -> dict[str, CleanerSpec]:
     >>> list(specs)[:4]
     ['oracle', 'sample', 'sk.Empirical', 'sk.LedoitWolf']
     """
-    import rmtclean
-
     specs = [
         CleanerSpec(ORACLE, None, "finite-sample oracle U diag(u'Σu) U' (uses truth)"),
         CleanerSpec(
@@ -218,11 +217,12 @@ def available_cleaners() -> dict[str, CleanerSpec]:
             GRAPHICAL_LASSO_MAX_FEATURES,
         ),
     ]
-    from rmtclean.cli import METHODS  # here: cli imports this module
-
-    for name in METHODS:
-        if hasattr(rmtclean, name):
-            specs.append(CleanerSpec(name, _RmtcleanFactory(name), f"rmtclean {name}"))
+    for entry in CLEANERS:
+        specs.append(
+            CleanerSpec(
+                entry.name, _RmtcleanFactory(entry.name), f"rmtclean {entry.name}"
+            )
+        )
     return {spec.name: spec for spec in specs}
 
 

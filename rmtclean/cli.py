@@ -9,17 +9,7 @@ from pathlib import Path
 
 from rmtclean.bench import add_bench_parser
 
-__all__ = ["main", "build_parser", "METHODS"]
-
-#: Cleaners that ``rmtclean clean --method`` knows, by their class names.
-METHODS = (
-    "EigenClip",
-    "LinearShrink",
-    "KernelShrink",
-    "StieltjesShrink",
-    "SpikeShrink",
-    "SplitShrink",
-)
+__all__ = ["main", "build_parser"]
 
 #: Fewest observations (after any price conversion) the data commands accept.
 MIN_ROWS = 3
@@ -47,13 +37,23 @@ def _cmd_demo(args) -> int:
 
 
 # -- clean and analyze --------------------------------------------------------
+def _method_choices() -> str:
+    """The registry's short names with their descriptions, on one line."""
+    from rmtclean.estimators import CLEANERS
+
+    return "; ".join(f"{e.short} ({e.description})" for e in CLEANERS)
+
+
 def _method_name(text: str) -> str:
-    for name in METHODS:
-        if text.lower() == name.lower():
-            return name
-    raise argparse.ArgumentTypeError(
-        f"unknown method {text!r}; choose among {', '.join(METHODS)}"
-    )
+    """The class name of the cleaner ``text`` names (short, class or alias)."""
+    from rmtclean.estimators import find_cleaner
+
+    try:
+        return find_cleaner(text).name
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"unknown method {text!r}; choose among {_method_choices()}"
+        ) from None
 
 
 def _load_returns(args):
@@ -97,15 +97,9 @@ def _check_complete(frame, args, source: str) -> None:
 
 
 def _build_estimator(args):
-    import rmtclean
+    from rmtclean.estimators import find_cleaner
 
-    cls = getattr(rmtclean, args.method, None)
-    if cls is None:
-        raise ValueError(
-            f"--method {args.method}: this installation of rmtclean does not "
-            "provide it."
-        )
-    est = cls()
+    est = find_cleaner(args.method).cls()
     params = est.get_params()
     wanted = {"standardize": args.standardize}
     if args.half_life is not None:
@@ -280,7 +274,8 @@ def _add_data_parsers(sub) -> None:
         required=True,
         type=_method_name,
         metavar="NAME",
-        help=f"the cleaner, one of {', '.join(METHODS)} (any case)",
+        help=f"the cleaner, one of {_method_choices()}; class names and "
+        "aliases are accepted too, in any case",
     )
     clean.add_argument("--out", metavar="FILE", help="where to write the matrix")
     clean.add_argument(

@@ -68,22 +68,18 @@ class DemoResult:
 
 
 def _cleaners(random_state: int) -> list:
-    import rmtclean
+    from rmtclean.estimators import CLEANERS
 
     out = [
         ("sample (sklearn)", EmpiricalCovariance()),
         ("LedoitWolf (sklearn)", LedoitWolf()),
         ("OAS (sklearn)", OAS()),
     ]
-    for name, params in [
-        ("EigenClip", {}),
-        ("LinearShrink", {}),
-        ("KernelShrink", {}),
-        ("StieltjesShrink", {}),
-        ("SpikeShrink", {}),
-        ("SplitShrink", {"random_state": random_state}),
-    ]:
-        out.append((name, getattr(rmtclean, name)(**params)))
+    for entry in CLEANERS:
+        est = entry.cls()
+        if "random_state" in est.get_params(deep=False):
+            est.set_params(random_state=random_state)
+        out.append((entry.name, est))
     return out
 
 

@@ -1,8 +1,9 @@
 """Registry of the cleaners the reliability suites run over.
 
-Every estimator exported by :mod:`rmtclean` (each subclass of
-:class:`rmtclean.estimators.SpectralCovariance` named in ``rmtclean.__all__``)
-is picked up, so a new cleaner is covered as soon as it is exported. A few
+Every cleaner of the library's registry (``rmtclean.estimators.CLEANERS``)
+is picked up, so a new cleaner is covered as soon as it is registered;
+``exported_estimators`` lists the SpectralCovariance subclasses exported by
+:mod:`rmtclean`, which tests/test_registry.py compares with the registry. A few
 variants add the parameter settings whose documented guarantees differ (the
 non-rotation-invariant targets of LinearShrink).
 
@@ -43,7 +44,14 @@ from dataclasses import dataclass, field
 import numpy as np
 
 import rmtclean
-from rmtclean.estimators import SpectralCovariance
+from rmtclean.estimators import (
+    CLEANERS,
+    EigenClip,
+    KernelShrink,
+    LinearShrink,
+    SpectralCovariance,
+    SplitShrink,
+)
 
 __all__ = [
     "CASES",
@@ -120,15 +128,15 @@ def make(cls, **params) -> SpectralCovariance:
 CLOSED_FORM_RTOL = 1e-9
 FITTED_RTOL = 1e-6
 
-# Guarantees by class name, applied only to the estimators that are exported.
+# Guarantees by class, applied to the registered cleaners.
 _KNOWN = {
-    "LinearShrink": {"closed_form": True, "warns_rank_deficient": False},
-    "SplitShrink": {"semidefinite": True, "min_rows": 8, "closed_form": True},
-    "EigenClip": {"trace_preserving": True},
-    "KernelShrink": {"min_dof_wide": 12},
+    LinearShrink: {"closed_form": True, "warns_rank_deficient": False},
+    SplitShrink: {"semidefinite": True, "min_rows": 8, "closed_form": True},
+    EigenClip: {"trace_preserving": True},
+    KernelShrink: {"min_dof_wide": 12},
 }
 _VARIANTS = {
-    "LinearShrink": [
+    LinearShrink: [
         {"params": {"target": "diagonal"}, "rotation_invariant": False},
         {
             "params": {"target": "constant-correlation"},
@@ -141,15 +149,16 @@ _VARIANTS = {
 
 def _cases() -> list[Case]:
     cases = []
-    for cls in exported_estimators():
-        known = _KNOWN.get(cls.__name__, {})
+    for entry in CLEANERS:
+        cls = entry.cls
+        known = _KNOWN.get(cls, {})
         cases.append(Case(cls, **known))
-        for variant in _VARIANTS.get(cls.__name__, []):
+        for variant in _VARIANTS.get(cls, []):
             cases.append(Case(cls, **{**known, **variant}))
     return cases
 
 
-#: Every exported estimator (with its variants).
+#: Every registered cleaner (with its variants).
 CASES: list[Case] = _cases()
 
 

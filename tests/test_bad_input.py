@@ -18,9 +18,9 @@ import pandas as pd
 import pytest
 from sklearn.exceptions import NotFittedError
 
-import rmtclean
 from rmtclean import rules
 from rmtclean.cli import main
+from rmtclean.estimators import LinearShrink, SpikeShrink, SplitShrink
 from rmtclean.exceptions import InvalidParameterError
 from rmtclean.laws import MarchenkoPastur, TracyWidom, WignerSemicircle
 from rmtclean.spectrum import CleanedSpectrum, fit_bulk, sample_spectrum
@@ -191,87 +191,84 @@ def test_every_estimator_refuses(case, action, exc, match):
 
 
 # -- particular estimators -----------------------------------------------------
-def _est(name, **params):
-    cls = getattr(rmtclean, name, None)
-    if cls is None:
-        pytest.skip(f"{name} is not exported")
+def _est(cls, **params):
     return make(cls, **params)
 
 
 PARTICULAR_ROWS = [
-    ("LinearShrink", {"target": "bogus"}, _good(), InvalidParameterError, r"'target'"),
+    (LinearShrink, {"target": "bogus"}, _good(), InvalidParameterError, r"'target'"),
     (
-        "LinearShrink",
+        LinearShrink,
         {"intensity": -0.1},
         _good(),
         InvalidParameterError,
         r"'intensity' parameter of LinearShrink.*\[0, 1\].*-0\.1",
     ),
     (
-        "LinearShrink",
+        LinearShrink,
         {"target": "diagonal", "intensity": "oas"},
         _good(),
         ValueError,
         r"OAS intensity is derived for the identity target only",
     ),
     (
-        "LinearShrink",
+        LinearShrink,
         {"target": "constant-correlation"},
         np.c_[_good(), np.ones(30)],
         ValueError,
         r"constant-correlation target needs every column to vary",
     ),
     (
-        "SpikeShrink",
+        SpikeShrink,
         {"loss": "bogus"},
         _good(),
         InvalidParameterError,
         r"'loss' parameter of SpikeShrink.*Got 'bogus'",
     ),
     (
-        "SpikeShrink",
+        SpikeShrink,
         {"noise_variance": -1.0},
         _good(),
         InvalidParameterError,
         r"'noise_variance' parameter of SpikeShrink.*Got -1\.0",
     ),
     (
-        "SpikeShrink",
+        SpikeShrink,
         {"half_life": -2.0},
         _good(),
         InvalidParameterError,
         r"'half_life' parameter of SpikeShrink.*\(0, inf\).*-2\.0",
     ),
     (
-        "SplitShrink",
+        SplitShrink,
         {"n_splits": 0},
         _good(),
         InvalidParameterError,
         r"'n_splits' parameter of SplitShrink.*Got 0",
     ),
     (
-        "SplitShrink",
+        SplitShrink,
         {"train_size": 1.5},
         _good(),
         InvalidParameterError,
         r"'train_size' parameter of SplitShrink",
     ),
     (
-        "SplitShrink",
+        SplitShrink,
         {},
         _good(5, 3),
         ValueError,
         r"'train_size' parameter of SplitShrink must leave at least 2 rows",
     ),
     (
-        "SplitShrink",
+        SplitShrink,
         {"random_state": "seed"},
         _good(),
         InvalidParameterError,
         r"'random_state' parameter of SplitShrink",
     ),
     (
-        "SplitShrink",
+        SplitShrink,
         {"shuffle": False, "n_splits": 40},
         _good(),
         ValueError,
@@ -281,12 +278,12 @@ PARTICULAR_ROWS = [
 
 
 @pytest.mark.parametrize(
-    "name, params, X, exc, match",
+    "cls, params, X, exc, match",
     PARTICULAR_ROWS,
-    ids=[f"{r[0]}-{i}" for i, r in enumerate(PARTICULAR_ROWS)],
+    ids=[f"{r[0].__name__}-{i}" for i, r in enumerate(PARTICULAR_ROWS)],
 )
-def test_estimator_parameters_refused(name, params, X, exc, match):
-    _check_raises(lambda: _est(name, **params).fit(X), exc, match)
+def test_estimator_parameters_refused(cls, params, X, exc, match):
+    _check_raises(lambda: _est(cls, **params).fit(X), exc, match)
 
 
 # -- rules, spectra and laws ----------------------------------------------------

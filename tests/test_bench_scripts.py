@@ -15,19 +15,11 @@ from pathlib import Path
 
 import pytest
 
+from rmtclean.estimators import CLEANERS as REGISTRY
+
 BENCHMARKS = Path(__file__).parents[1] / "benchmarks"
 TINY = ["--reps", "2", "--n-features", "40", "--n-samples", "120"]
-CLEANERS = (
-    "oracle",
-    "sample",
-    "sk.LedoitWolf",
-    "KernelShrink",
-    "EigenClip",
-    "LinearShrink",
-    "StieltjesShrink",
-    "SpikeShrink",
-    "SplitShrink",
-)
+CLEANERS = ("oracle", "sample", "sk.LedoitWolf", *(e.name for e in REGISTRY))
 # A table row: name, PRIAL, its SE, mean loss, its SE, fit ms.
 ROW = re.compile(r"^  (\S+)\s+(-?[\d.]+)\s+([\d.]+)\s+(\S+)\s+(\S+)\s+(\S+)")
 

@@ -9,21 +9,15 @@ import pytest
 from sklearn.utils.estimator_checks import parametrize_with_checks
 
 import rmtclean
+from rmtclean.estimators import CLEANERS, SplitShrink
 
-ESTIMATOR_NAMES = [
-    "EigenClip",
-    "KernelShrink",
-    "LinearShrink",
-    "SpikeShrink",
-    "SplitShrink",
-    "StieltjesShrink",
-]
+ESTIMATOR_NAMES = [entry.name for entry in CLEANERS]
 
 
 def _instances():
     out = []
-    for name in ESTIMATOR_NAMES:
-        cls = getattr(rmtclean, name)
+    for entry in CLEANERS:
+        cls = entry.cls
         params = {"random_state": 0} if "random_state" in cls().get_params() else {}
         out.append(cls(**params))
     return out
@@ -32,7 +26,7 @@ def _instances():
 def _expected_failures(estimator):
     # Sample splitting draws random row subsets: repeating a row is not the
     # same as doubling its weight for the split (both are valid estimates).
-    if type(estimator).__name__ == "SplitShrink":
+    if isinstance(estimator, SplitShrink):
         return {
             "check_sample_weight_equivalence_on_dense_data": (
                 "random row splits treat a repeated row and a weight of 2 differently"

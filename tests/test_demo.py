@@ -4,20 +4,13 @@ import numpy as np
 
 from rmtclean.cli import main
 from rmtclean.demo import CAUTION, run_demo
+from rmtclean.estimators import CLEANERS
 
 
 def test_demo_scores_every_cleaner_and_the_oracle_is_best():
     result = run_demo(n_assets=40, n_days=90, random_state=3)
     names = [row[0] for row in result.rows]
-    for name in [
-        "EigenClip",
-        "LinearShrink",
-        "KernelShrink",
-        "StieltjesShrink",
-        "SpikeShrink",
-        "SplitShrink",
-        "LedoitWolf (sklearn)",
-    ]:
+    for name in [*(entry.name for entry in CLEANERS), "LedoitWolf (sklearn)"]:
         assert name in names
     losses = np.array([row[1] for row in result.rows])
     assert np.all(np.isfinite(losses)) and np.all(losses > 0)

@@ -8,15 +8,20 @@ distributed = pytest.importorskip("distributed", reason="distributed is optional
 
 import rmtclean  # noqa: E402
 from rmtclean.distributed import dask_sample_spectrum, is_dask_array  # noqa: E402
+from rmtclean.estimators import (  # noqa: E402
+    EigenClip,
+    KernelShrink,
+    SpikeShrink,
+    StieltjesShrink,
+)
 from rmtclean.spectrum import SampleSpectrum  # noqa: E402
 from tests._identity_rule import KeepSample  # noqa: E402
 
 
 def _cleaners():
     out = [KeepSample()]
-    for name in ["KernelShrink", "EigenClip", "StieltjesShrink", "SpikeShrink"]:
-        if hasattr(rmtclean, name):
-            out.append(getattr(rmtclean, name)())
+    for cls in [KernelShrink, EigenClip, StieltjesShrink, SpikeShrink]:
+        out.append(cls())
     return out
 
 

@@ -22,6 +22,7 @@ import pytest
 from hypothesis import assume, given
 from hypothesis import strategies as st
 
+from rmtclean.estimators import EigenClip, LinearShrink, SpikeShrink
 from tests._registry import (
     CASES,
     CLOSED_FORM_RTOL,
@@ -159,21 +160,20 @@ def test_cleaned_eigenvalues_in_documented_range(case, data):
     vals = est.eigenvalues_
     assert vals.shape == sample.shape
     assert np.all(np.diff(sample) <= 0), "sample_eigenvalues_ not descending"
-    name = case.cls.__name__
-    if name == "LinearShrink" and case.params.get("target", "identity") == "identity":
+    if case.cls is LinearShrink and case.params.get("target", "identity") == "identity":
         # (1 - delta) lambda + delta mu, mu = tr(S)/p (LinearShrink docstring;
         # Ledoit & Wolf 2004, JMVA 88(2), eq. 14 from memory).
         delta, mu = est.shrinkage_, sample.mean()
         expected = (1 - delta) * sample + delta * mu
         assert _rel_err(vals, expected) <= 1e-10
-    elif name == "SpikeShrink":
+    elif case.cls is SpikeShrink:
         # Bulk and null space get s2; separated spikes are shrunk to >= s2
         # (Donoho, Gavish & Johnstone 2018: eta*(ell) >= 1 for ell > 1 [paper]).
         s2 = est.noise_variance_
         k = est.n_signal_
         assert np.allclose(vals[k:], s2, rtol=1e-12, atol=0)
         assert np.all(vals[:k] >= s2 * (1 - 1e-12))
-    elif name == "EigenClip":
+    elif case.cls is EigenClip:
         # Laloux et al. 1999: the signal eigenvalues are kept, the others
         # replaced by their mean (REFERENCES item 9 [memory]).
         k = est.n_signal_

@@ -15,7 +15,13 @@ import numpy as np
 import pytest
 from scipy.linalg import hadamard
 
-import rmtclean
+from rmtclean.estimators import (
+    EigenClip,
+    KernelShrink,
+    LinearShrink,
+    SpikeShrink,
+    StieltjesShrink,
+)
 from rmtclean.exceptions import RankDeficientWarning, WeakEstimateWarning
 from rmtclean.laws import MarchenkoPastur, TracyWidom, WignerSemicircle
 from tests._registry import CASES
@@ -49,14 +55,13 @@ def _fit_strict(case, X, **params):
 
 def _floor(case, est) -> float:
     """The documented lower bound of the cleaned eigenvalues."""
-    name = case.cls.__name__
-    if name == "SpikeShrink":  # bulk and null space at the noise variance
+    if case.cls is SpikeShrink:  # bulk and null space at the noise variance
         return est.noise_variance_
-    if name == "EigenClip":  # clipped eigenvalues become the bulk mean
+    if case.cls is EigenClip:  # clipped eigenvalues become the bulk mean
         return min(
             est.bulk_mean_, est.eigenvalues_[: est.n_signal_].min(initial=np.inf)
         )
-    if name == "LinearShrink" and case.params.get("target", "identity") == "identity":
+    if case.cls is LinearShrink and case.params.get("target", "identity") == "identity":
         # (1 - delta) lambda + delta mu >= delta mu (Ledoit & Wolf 2004).
         return est.shrinkage_ * est.sample_eigenvalues_.mean()
     return 0.0
@@ -309,8 +314,8 @@ def test_semicircle_extremes_finite_and_monotone():
     assert cdf[0] == 0.0 and cdf[-1] == 1.0
 
 
-@pytest.mark.parametrize("name", ["KernelShrink", "StieltjesShrink"])
-def test_variance_that_underflows_gives_the_zero_covariance(name):
+@pytest.mark.parametrize("cls", [KernelShrink, StieltjesShrink])
+def test_variance_that_underflows_gives_the_zero_covariance(cls):
     # One entry of 1e-300: the rows differ, so the base's all-equal check
     # passes, but the sample variance 1e-600 underflows to 0 and no
     # eigenvalue is positive; the cleaners return the zero matrix [computed].
@@ -318,6 +323,6 @@ def test_variance_that_underflows_gives_the_zero_covariance(name):
     X[0, 0] = 1e-300
     with warnings.catch_warnings():
         warnings.simplefilter("ignore")
-        est = getattr(rmtclean, name)().fit(X)
+        est = cls().fit(X)
     np.testing.assert_array_equal(est.covariance_, np.zeros((5, 5)))
     assert X[0, 0] == 1e-300 and np.count_nonzero(X) == 1
