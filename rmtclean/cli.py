@@ -41,7 +41,7 @@ def _method_choices() -> str:
     """The registry's short names with their descriptions, on one line."""
     from rmtclean.estimators import CLEANERS
 
-    return "; ".join(f"{e.short} ({e.description})" for e in CLEANERS)
+    return "; ".join(f"{e.short}: {e.description}" for e in CLEANERS)
 
 
 def _method_name(text: str) -> str:
@@ -274,7 +274,7 @@ def _add_data_parsers(sub) -> None:
         required=True,
         type=_method_name,
         metavar="NAME",
-        help=f"the cleaner, one of {_method_choices()}; class names and "
+        help=f"the cleaner, one of {_method_choices()}. Class names and "
         "aliases are accepted too, in any case",
     )
     clean.add_argument("--out", metavar="FILE", help="where to write the matrix")

@@ -41,6 +41,6 @@ def test_unknown_name_lists_the_choices():
     with pytest.raises(ValueError, match="Got 'Magic'") as info:
         find_cleaner("Magic")
     for entry in CLEANERS:
-        assert f"{entry.short} ({entry.description})" in str(info.value)
+        assert f"{entry.short}: {entry.description}" in str(info.value)
     with pytest.raises(argparse.ArgumentTypeError, match="unknown method 'Magic'"):
         _method_name("Magic")

@@ -131,7 +131,7 @@ def find_cleaner(text: str) -> CleanerEntry:
     for entry in CLEANERS:
         if wanted in entry.spellings():
             return entry
-    choices = "; ".join(f"{e.short} ({e.description})" for e in CLEANERS)
+    choices = "; ".join(f"{e.short}: {e.description}" for e in CLEANERS)
     raise ValueError(
         f"The 'text' parameter of find_cleaner must name a cleaner (class name, "
         f"short name or alias, any case). Got {text!r}; choose among: {choices}."
