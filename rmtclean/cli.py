@@ -104,6 +104,8 @@ def _build_estimator(args):
     wanted = {"standardize": args.standardize}
     if args.half_life is not None:
         wanted["half_life"] = args.half_life
+    if getattr(args, "vol_half_life", None) is not None:
+        wanted["vol_half_life"] = args.vol_half_life
     if args.missing is not None:
         wanted["missing"] = args.missing
     if "random_state" in params:
@@ -291,6 +293,15 @@ def _add_data_parsers(sub) -> None:
         metavar="ROWS",
         help="weight rows exponentially (last row newest); the effective sample "
         "size replaces the number of rows",
+    )
+    clean.add_argument(
+        "--vol-half-life",
+        type=float,
+        metavar="ROWS",
+        help="devolatilise each column by its causal EWMA volatility with this "
+        "half-life (rows in time order), clean the correlation and scale it by "
+        "the volatility forecast for the next row (daily returns: 11.2 is "
+        "RiskMetrics' lambda 0.94)",
     )
     clean.add_argument(
         "--seed", type=int, default=0, help="seed of randomised cleaners (default 0)"

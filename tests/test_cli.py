@@ -239,3 +239,28 @@ def test_missing_values_and_half_life_options(returns_csv, tmp_path, capsys):
     assert code == 0, err
     n_eff = effective_sample_size(exponential_weights(frame.shape[0], 30.0))
     assert f"degrees of freedom: {n_eff - 1:.6g}" in stdout
+
+
+def test_vol_half_life_option(returns_csv, tmp_path, capsys):
+    from rmtclean.estimators import KernelShrink
+
+    path, frame = returns_csv
+    out = tmp_path / "cov.csv"
+    argv = ["clean", path, "--method", "KernelShrink", "--vol-half-life", "11.2"]
+    code, _, err = _run(argv + ["--out", out], capsys)
+    assert code == 0, err
+    ref = KernelShrink(vol_half_life=11.2).fit(frame).covariance_
+    np.testing.assert_allclose(
+        pd.read_csv(out, index_col=0).to_numpy(), ref, rtol=1e-12
+    )
+    # A series without volatility in the seed rows: one line naming it.
+    flat = frame.copy()
+    flat.iloc[:30, 3] = 0.0
+    flat_path = tmp_path / "flat.csv"
+    flat.to_csv(flat_path)
+    code, _, err = _run(
+        ["clean", flat_path, "--method", "KernelShrink", "--vol-half-life", "11.2"],
+        capsys,
+    )
+    _one_line_error(code, err)
+    assert "'S3'" in err and "zero volatility" in err

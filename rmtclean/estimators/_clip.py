@@ -113,6 +113,7 @@ class EigenClip(SpectralCovariance):
         store_covariance="auto",
         half_life=None,
         missing="error",
+        vol_half_life=None,
     ):
         super().__init__(
             store_precision=store_precision,
@@ -122,6 +123,7 @@ class EigenClip(SpectralCovariance):
             store_covariance=store_covariance,
             half_life=half_life,
             missing=missing,
+            vol_half_life=vol_half_life,
         )
         self.edge = edge
         self.alpha = alpha

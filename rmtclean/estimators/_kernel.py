@@ -219,6 +219,7 @@ class KernelShrink(SpectralCovariance):
         store_covariance="auto",
         half_life=None,
         missing="error",
+        vol_half_life=None,
     ):
         super().__init__(
             store_precision=store_precision,
@@ -228,6 +229,7 @@ class KernelShrink(SpectralCovariance):
             store_covariance=store_covariance,
             half_life=half_life,
             missing=missing,
+            vol_half_life=vol_half_life,
         )
         self.bandwidth = bandwidth
         self.formula = formula

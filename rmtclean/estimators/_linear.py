@@ -158,7 +158,7 @@ _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
 class LinearShrink(SpectralCovariance):
     # The base's parameters, less ``missing``, which LinearShrink does not take.
     __doc__ = _DOC.replace(
-        "%(common)s", common_params_doc().split("    missing :")[0].rstrip("\n") + "\n"
+        "%(common)s", common_params_doc(exclude=("missing",)).rstrip("\n") + "\n"
     )
 
     _parameter_specs: dict = {
@@ -183,6 +183,7 @@ class LinearShrink(SpectralCovariance):
         route="auto",
         store_covariance="auto",
         half_life=None,
+        vol_half_life=None,
     ):
         super().__init__(
             store_precision=store_precision,
@@ -191,6 +192,7 @@ class LinearShrink(SpectralCovariance):
             route=route,
             store_covariance=store_covariance,
             half_life=half_life,
+            vol_half_life=vol_half_life,
         )
         self.target = target
         self.intensity = intensity
@@ -200,7 +202,11 @@ class LinearShrink(SpectralCovariance):
         """Fit the shrunk covariance to ``X``; see :meth:`SpectralCovariance.fit`."""
         check_params(self)
         _check_combination(self.target, self.intensity, type(self).__name__)
-        plain = sample_weight is None and self.half_life is None
+        plain = (
+            sample_weight is None
+            and self.half_life is None
+            and self.vol_half_life is None
+        )
         if plain and not self.standardize and not is_dask_array(X):
             Xv = self._validate_fit_data(X)
             if self._direct_route(Xv.shape) and self._fit_direct(Xv):
@@ -284,6 +290,7 @@ class LinearShrink(SpectralCovariance):
         self.shrinkage_ = delta
         self.n_signal_ = None
         self.scale_ = None
+        self.volatility_ = None
         self.degrees_of_freedom_ = n
         return True
 

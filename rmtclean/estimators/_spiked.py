@@ -127,6 +127,7 @@ class SpikeShrink(SpectralCovariance):
         store_covariance="auto",
         half_life=None,
         missing="error",
+        vol_half_life=None,
     ):
         super().__init__(
             store_precision=store_precision,
@@ -136,6 +137,7 @@ class SpikeShrink(SpectralCovariance):
             store_covariance=store_covariance,
             half_life=half_life,
             missing=missing,
+            vol_half_life=vol_half_life,
         )
         self.loss = loss
         self.noise_variance = noise_variance

@@ -144,6 +144,7 @@ class SplitShrink(SpectralCovariance):
         route="auto",
         store_covariance="auto",
         half_life=None,
+        vol_half_life=None,
     ):
         super().__init__(
             store_precision=store_precision,
@@ -152,6 +153,7 @@ class SplitShrink(SpectralCovariance):
             route=route,
             store_covariance=store_covariance,
             half_life=half_life,
+            vol_half_life=vol_half_life,
         )
         self.train_size = train_size
         self.n_splits = n_splits

@@ -135,6 +135,7 @@ class StieltjesShrink(SpectralCovariance):
         store_covariance="auto",
         half_life=None,
         missing="error",
+        vol_half_life=None,
     ):
         super().__init__(
             store_precision=store_precision,
@@ -144,6 +145,7 @@ class StieltjesShrink(SpectralCovariance):
             store_covariance=store_covariance,
             half_life=half_life,
             missing=missing,
+            vol_half_life=vol_half_life,
         )
         self.eta = eta
         self.regularize = regularize
