@@ -21,14 +21,11 @@ from rmtclean._validation import (
 from rmtclean.distributed import dask_sample_spectrum, is_dask_array
 from rmtclean.exceptions import RankDeficientWarning, WeakEstimateWarning
 from rmtclean.rules._types import CleanedEigenvalues
-from rmtclean.spectrum import CleanedSpectrum, SampleSpectrum
+from rmtclean.spectrum import DENSE_LIMIT, CleanedSpectrum, SampleSpectrum
 from rmtclean.volatility import ewma_volatility
 from rmtclean.weights import exponential_weights, kish_weights
 
-__all__ = ["SpectralCovariance", "DENSE_STORE_LIMIT"]
-
-#: ``store_covariance="auto"`` keeps dense matrices up to this many features.
-DENSE_STORE_LIMIT = 5000
+__all__ = ["SpectralCovariance"]
 
 _COMMON_DOC = """
     store_precision : bool, default=True
@@ -438,7 +435,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         self.degrees_of_freedom_ = float(spectrum.n_samples)
         store = self.store_covariance
         if store == "auto":
-            store = n_features <= DENSE_STORE_LIMIT
+            store = n_features <= DENSE_LIMIT
         if store:
             self.covariance_ = result.to_dense().astype(out_dtype, copy=False)
             # Densified on first access (another N x N product), same numbers.

@@ -7,11 +7,7 @@ from scipy.linalg import lapack
 
 from rmtclean._validation import BOOLEAN, Interval, Options, check_params
 from rmtclean.distributed import is_dask_array
-from rmtclean.estimators._base import (
-    DENSE_STORE_LIMIT,
-    SpectralCovariance,
-    common_params_doc,
-)
+from rmtclean.estimators._base import SpectralCovariance, common_params_doc
 from rmtclean.rules._linear import (
     INTENSITY_METHODS,
     SHRINKAGE_TARGETS,
@@ -233,7 +229,7 @@ class LinearShrink(SpectralCovariance):
             route = "gram" if big else "dense"
         store = self.store_covariance
         if store == "auto":
-            store = n_features <= DENSE_STORE_LIMIT
+            store = n_features <= DENSE_LIMIT
         return route == "dense" and bool(store)
 
     def _shrunk(self, Xc, weights, n):

@@ -9,7 +9,9 @@ import scipy.linalg
 
 __all__ = ["SampleSpectrum", "sample_spectrum"]
 
-#: Largest number of features for which ``route="auto"`` forms the N x N matrix.
+#: Largest number of features for which rmtclean forms an N x N matrix by
+#: default: ``route="auto"`` diagonalises it, ``store_covariance="auto"``
+#: keeps it.
 DENSE_LIMIT = 5000
 
 
