@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 
 from rmtclean import SpectrumReport, analyze_spectrum
-from rmtclean.spectrum import detect_signal, fit_bulk, sample_spectrum
+from rmtclean.spectrum import detect_signal, fit_bulk, invert_spikes, sample_spectrum
 from tests._spectra import one_blas_thread
 
 __all__ = ["one_blas_thread"]  # the autouse fixture, imported
@@ -56,19 +56,26 @@ def test_planted_spikes_and_overlaps_recovered(rng):
 
 
 def test_report_agrees_with_its_parts(rng):
-    # [computed] the report is detect_signal + fit_bulk on the same spectrum.
+    # [computed] the report is detect_signal (stopped at the edge of the law
+    # fitted to the whole spectrum) + fit_bulk with the signal set aside + the
+    # BBP inversion at q = N / n and that fit's noise variance.
     X = spiked_data(rng, 301, 60)
     report = analyze_spectrum(X, alpha=0.01)
     spec = sample_spectrum(X)
     test = detect_signal(spec.eigenvalues, spec.n_samples, 60, alpha=0.01)
+    whole = fit_bulk(spec.eigenvalues, spec.n_samples, 60)
     fit = fit_bulk(spec.eigenvalues, spec.n_samples, 60, n_signal=test.n_signal)
+    q = 60 / 300
     assert report.n_signal == test.n_signal
     np.testing.assert_array_equal(report.p_values, test.p_values)
     assert report.noise_variance == fit.noise_variance
-    assert report.bulk_edge == fit.upper_edge
-    assert report.ratio == fit.ratio
-    assert report.threshold == test.threshold
-    assert report.n_samples == 300 and report.n_features == 60
+    assert report.ratio == q
+    assert report.bulk_edge == pytest.approx(fit.noise_variance * (1 + q**0.5) ** 2)
+    assert report.threshold == max(test.threshold, whole.upper_edge)
+    inversion = invert_spikes(spec.eigenvalues[: test.n_signal], q, fit.noise_variance)
+    np.testing.assert_array_equal(report.spike_strengths, inversion.spikes)
+    assert report.degrees_of_freedom == 300 and report.n_features == 60
+    assert report.n_observations == 301
     np.testing.assert_array_equal(report.eigenvalues, spec.eigenvalues)
 
 

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 import warnings
-from numbers import Integral, Real
+from numbers import Integral
 
 import numpy as np
 
@@ -16,7 +16,12 @@ from rmtclean.spectrum._bulk import (
     _fit_bulk,
     _numerical_rank,
 )
-from rmtclean.spectrum._edge import DEFAULT_CONSTANTS, _check_alpha, _detect_signal
+from rmtclean.spectrum._edge import (
+    DEFAULT_CONSTANTS,
+    _check_alpha,
+    _check_level,
+    _detect_signal,
+)
 
 __all__ = ["eigen_clip"]
 
@@ -186,22 +191,7 @@ def eigen_clip(
     function = "eigen_clip"
     n_samples, n_features = _check_sizes(n_samples, n_features, function)
     values = _check_eigenvalues(eigenvalues, n_features, function)
-    if isinstance(edge, str):
-        if edge not in _EDGES:
-            raise ValueError(
-                f"The 'edge' parameter of {function} must be one of {_EDGES} or "
-                f"a non-negative float. Got {edge!r} instead."
-            )
-    elif (
-        isinstance(edge, bool)
-        or not isinstance(edge, Real)
-        or not math.isfinite(edge)
-        or edge < 0
-    ):
-        raise ValueError(
-            f"The 'edge' parameter of {function} must be one of {_EDGES} or a "
-            f"non-negative float. Got {edge!r} instead."
-        )
+    edge = _check_level(edge, "edge", _EDGES, function)
     if n_keep is not None and (
         isinstance(n_keep, bool) or not isinstance(n_keep, Integral) or n_keep < 0
     ):

@@ -3,7 +3,7 @@
 from rmtclean.spectrum._bulk import BulkFit, fit_bulk
 from rmtclean.spectrum._cleaned import CleanedSpectrum
 from rmtclean.spectrum._edge import EdgeTest, detect_signal
-from rmtclean.spectrum._report import SpectrumReport, analyze_spectrum
+from rmtclean.spectrum._report import SpectrumReport, analyze_spectrum, spectrum_report
 from rmtclean.spectrum._sample import DENSE_LIMIT, SampleSpectrum, sample_spectrum
 from rmtclean.spectrum._spikes import (
     SpikeInversion,
@@ -33,4 +33,5 @@ __all__ = [
     "sample_spectrum",
     "spike_overlap",
     "spike_to_eigenvalue",
+    "spectrum_report",
 ]

@@ -59,6 +59,12 @@ class EdgeTest:
     adjusted : bool
         Whether the statistics were adjusted for the estimated noise
         variance.
+    edge : float or None
+        The bulk edge every signal eigenvalue had to exceed as well (see
+        ``bulk_edge`` of :func:`detect_signal`); None when not used.
+    stopped_at_edge : bool
+        Whether the tests stopped because the next eigenvalue was not above
+        ``edge``, although its Tracy-Widom test rejected.
     """
 
     n_signal: int
@@ -71,6 +77,8 @@ class EdgeTest:
     alpha: float
     constants: str
     adjusted: bool = False
+    edge: float | None = None
+    stopped_at_edge: bool = False
 
     def __str__(self) -> str:
         lines = [
@@ -80,6 +88,11 @@ class EdgeTest:
             f"  noise variance               {self.noise_variance:.6g}",
             f"  bulk edge                    {self.bulk_edge:.6g}",
             f"  next test threshold          {self.threshold:.6g}",
+            *(
+                []
+                if self.edge is None
+                else [f"  fitted bulk edge             {self.edge:.6g}"]
+            ),
             f"  {'rank':>4}  {'eigenvalue':>12}  {'TW statistic':>12}  "
             f"{'p-value':>10}  decision",
         ]
@@ -88,6 +101,8 @@ class EdgeTest:
             start=1,
         ):
             decision = "signal" if rank <= self.n_signal else "noise"
+            if rank > self.n_signal and self.stopped_at_edge:
+                decision = "noise (not above the bulk edge)"
             lines.append(
                 f"  {rank:>4}  {value:12.6g}  {stat:12.4f}  {p:10.3g}  {decision}"
             )
@@ -133,10 +148,32 @@ def _law_constants(alpha: float) -> tuple[float, float, float]:
     return float(law.mean()), float(law.var()), float(law.ppf(1.0 - alpha))
 
 
+def _fitted_edge(values, n_samples, n_features, s2):
+    """Upper edge of the Marchenko-Pastur law fitted to the whole spectrum.
+
+    Ratio fixed at ``N / n``, noise variance fitted (minimum Cramer-von Mises
+    distance to all the eigenvalues, as Laloux et al. fit the whole density)
+    or the known ``s2``: ``s2 (1 + sqrt(N / n))^2``.
+    """
+    from rmtclean.spectrum._bulk import _fit_bulk
+
+    if s2 is not None:
+        return float(s2 * (1.0 + math.sqrt(n_features / n_samples)) ** 2)
+    return _fit_bulk(values, n_samples, n_features, 0, True, "cvm").upper_edge
+
+
 def _detect_signal(
-    values, n_samples, n_features, alpha, max_signal, constants, s2, adjust=True
+    values,
+    n_samples,
+    n_features,
+    alpha,
+    max_signal,
+    constants,
+    s2,
+    adjust=True,
+    edge=None,
 ):
-    """Unvalidated core of :func:`detect_signal`."""
+    """Unvalidated core of :func:`detect_signal` (``edge`` a level or None)."""
     from rmtclean.laws import TracyWidom
     from rmtclean.laws._wishart import largest_eigenvalue_scaling
 
@@ -145,6 +182,7 @@ def _detect_signal(
     known = s2 is not None
     stats, pvals = [], []
     k = 0
+    at_edge = False
     while True:
         dim, dof, _ = _bulk_sizes(n_samples, n_features, k)
         variance = s2 if known else _noise_variance(values, n_samples, n_features, k)
@@ -160,11 +198,16 @@ def _detect_signal(
         pvals.append(p)
         if p >= alpha:
             break
+        if edge is not None and not values[k] > edge:
+            # Rejected, but inside the fitted bulk: never continue into it.
+            at_edge = True
+            break
         k += 1
+    threshold = variance * (centre + scale * quantile) / n_samples
     return EdgeTest(
         n_signal=k,
         bulk_edge=variance * (math.sqrt(dof) + math.sqrt(dim)) ** 2 / n_samples,
-        threshold=variance * (centre + scale * quantile) / n_samples,
+        threshold=threshold,
         noise_variance=float(variance),
         eigenvalues=values[: len(stats)].copy(),
         statistics=np.asarray(stats, dtype=np.float64),
@@ -172,6 +215,8 @@ def _detect_signal(
         alpha=float(alpha),
         constants=constants,
         adjusted=bool(adjust and not known),
+        edge=None if edge is None else float(edge),
+        stopped_at_edge=at_edge,
     )
 
 
@@ -238,6 +283,7 @@ def detect_signal(
     constants: str = DEFAULT_CONSTANTS,
     noise_variance: float | None = None,
     adjust: bool = True,
+    bulk_edge: str | float | None = "fit",
 ) -> EdgeTest:
     r"""Count the eigenvalues above the noise bulk by sequential Tracy-Widom tests.
 
@@ -271,6 +317,13 @@ def detect_signal(
     adjust : bool, default=True
         Account for the noise variance being estimated (see Notes). Ignored
         when ``noise_variance`` is given.
+    bulk_edge : "fit", float or None, default="fit"
+        A level every signal eigenvalue must also exceed: the tests stop at
+        the first eigenvalue not above it, even if its test rejects, so they
+        never continue into the bulk. ``"fit"``: the upper edge
+        ``s2 (1 + sqrt(N / n))^2`` of the Marchenko-Pastur law fitted to the
+        whole spectrum with the ratio fixed (the known ``noise_variance``
+        if given); ``None``: no such level.
 
     Returns
     -------
@@ -323,6 +376,13 @@ def detect_signal(
 
     which matches the first two moments (a two-moment approximation derived
     for rmtclean, not a published correction).
+
+    On spectra that are not Marchenko-Pastur beyond a few spikes (a
+    population spectrum with no flat part, as in long samples of real
+    returns) the re-estimated variance drops at each step and the tests keep
+    rejecting, deep into the bulk. The ``bulk_edge`` level stops them there:
+    a signal eigenvalue lies above the fitted edge, so its inverted spike is
+    above the BBP threshold and its overlap is positive.
 
     Choice of the default constants: with the noise variance known,
     Johnstone's ``(n - 1, N)`` constants are conservative at small sizes and
@@ -389,6 +449,31 @@ def detect_signal(
             f"{max_signal} largest: the noise variance cannot be estimated."
         )
     adjust = _check_bool(adjust, "adjust", function)
+    edge = _check_bulk_edge(bulk_edge, function)
+    if edge == "fit":
+        edge = _fitted_edge(values, n_samples, n_features, s2)
     return _detect_signal(
-        values, n_samples, n_features, alpha, max_signal, constants, s2, adjust
+        values, n_samples, n_features, alpha, max_signal, constants, s2, adjust, edge
     )
+
+
+def _check_bulk_edge(value, function: str):
+    return _check_level(value, "bulk_edge", ("fit", None), function)
+
+
+def _check_level(value, name: str, options: tuple, function: str):
+    """One of ``options`` (names, or None) or a non-negative finite float."""
+    if value in options and not isinstance(value, (bool, Real)):
+        return value
+    if (
+        isinstance(value, bool)
+        or not isinstance(value, Real)
+        or not math.isfinite(value)
+        or value < 0
+    ):
+        shown = ", ".join(repr(option) for option in options)
+        raise ValueError(
+            f"The {name!r} parameter of {function} must be one of {shown} or a "
+            f"non-negative float. Got {value!r} instead."
+        )
+    return float(value)

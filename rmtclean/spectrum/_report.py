@@ -15,15 +15,33 @@ from rmtclean.spectrum._edge import (
     _check_edge_options,
     _detect_signal,
 )
-from rmtclean.spectrum._sample import sample_spectrum
-from rmtclean.spectrum._spikes import invert_spikes
+from rmtclean.spectrum._sample import SampleSpectrum, sample_spectrum
+from rmtclean.spectrum._spikes import _invert_spikes
 
-__all__ = ["SpectrumReport", "analyze_spectrum"]
+__all__ = ["SpectrumReport", "analyze_spectrum", "fit_warning_level", "spectrum_report"]
 
 CAUTION = (
     "Caution: these are statistical estimates from one sample; they carry "
     "estimation risk."
 )
+
+
+#: The bulk fit is said not to describe a spectrum when its Kolmogorov-Smirnov
+#: distance exceeds this, or FIT_WARNING_SCALE / m for m fitted eigenvalues if
+#: larger. Under white Gaussian noise the distance stays below 0.06 for
+#: m >= 49 and below 0.22 for m = 10 (maximum of 40 draws at each of eight
+#: sizes, benchmarks/bulk_fit_null.py), i.e. below both levels.
+FIT_WARNING_LEVEL = 0.1
+FIT_WARNING_SCALE = 4.0
+#: Below this ratio N / n (more than 50 observations per variable, a noise law
+#: within +-30% of its mean) a failed bulk fit is read as the population
+#: spectrum showing through.
+LONG_SAMPLE_RATIO = 0.02
+
+
+def fit_warning_level(n_used: int) -> float:
+    """KS distance above which the bulk fit is said not to hold."""
+    return max(FIT_WARNING_LEVEL, FIT_WARNING_SCALE / max(int(n_used), 1))
 
 
 @dataclass(frozen=True)
@@ -33,46 +51,63 @@ class SpectrumReport:
     Attributes
     ----------
     n_signal : int
-        Number of eigenvalues above the noise (sequential Tracy-Widom tests).
+        Number of eigenvalues above the noise: the sequential Tracy-Widom
+        tests reject for each of them, and each lies above ``bulk_edge`` and
+        above the edge of the law fitted to the whole spectrum.
     noise_variance : float
-        Noise variance of the Marchenko-Pastur bulk fitted without the signal
-        eigenvalues.
+        Noise variance ``s2`` of the Marchenko-Pastur bulk fitted without the
+        signal eigenvalues.
     ratio : float
-        Ratio of the fitted bulk law, ``(N - k)/(n - k)`` for ``k`` signal
-        eigenvalues (or the effective ratio when ``fix_ratio=False``).
+        The ratio ``q`` of the noise law: ``N / n`` (``n`` the degrees of
+        freedom, effective with weights) or, with ``fix_ratio=False``, the
+        effective ratio fitted within ``[N / n, 4 N / n]``.
     bulk_edge : float
-        Upper edge of the fitted bulk.
+        Upper edge ``s2 (1 + sqrt(q))^2`` of the noise law. Every signal
+        eigenvalue lies above it.
+    critical_spike : float
+        The BBP threshold ``s2 (1 + sqrt(q))``: every signal's spike
+        strength lies above it.
     threshold : float
         Level the first noise eigenvalue would have had to exceed to be
-        declared signal.
+        declared signal: the larger of its Tracy-Widom level and the edge of
+        the law fitted to the whole spectrum.
     p_values, statistics : ndarray of shape (n_tested,)
         Tracy-Widom p-values and statistics of the tested eigenvalues,
-        largest first (the signal ones, then the first one not rejected).
+        largest first (the signal ones, then the first one not declared).
     spike_strengths : ndarray of shape (n_signal,)
         Population variance of each signal direction, inverted from its
-        eigenvalue by the Baik-Ben Arous-Peche map with ratio ``N / n``;
-        ``noise_variance`` where an eigenvalue is not above the limit edge.
+        eigenvalue by the Baik-Ben Arous-Peche map at ``ratio`` and
+        ``noise_variance``.
     overlaps : ndarray of shape (n_signal,)
         Limit squared cosine between each signal eigenvector and its
-        population direction (0 below the BBP threshold).
+        population direction (Paul 2007), in (0, 1).
     eigenvalues : ndarray of shape (n_components,)
         The sample eigenvalues (descending; implicit zeros beyond).
     bulk_statistic : float
-        Kolmogorov-Smirnov distance of the bulk to the fitted law.
-    n_samples : float
-        Degrees of freedom of the sample covariance.
+        Kolmogorov-Smirnov distance of the bulk (the eigenvalues after the
+        signal) to the fitted law.
+    n_observations : int
+        Rows of the data.
+    degrees_of_freedom : float
+        Degrees of freedom ``n`` of the sample covariance (``T - 1`` after
+        demeaning; Kish's effective size with weights).
     n_features : int
         Dimension N.
     alpha : float
         Level of the tests.
     standardized : bool
         Whether the spectrum is that of the correlation matrix.
+    warnings : tuple of str
+        What the user should know before reading the numbers: the bulk law
+        does not describe the spectrum, the count hit ``max_signal``. Empty
+        when nothing is to be said.
     """
 
     n_signal: int
     noise_variance: float
     ratio: float
     bulk_edge: float
+    critical_spike: float
     threshold: float
     p_values: np.ndarray
     statistics: np.ndarray
@@ -80,18 +115,26 @@ class SpectrumReport:
     overlaps: np.ndarray
     eigenvalues: np.ndarray
     bulk_statistic: float
-    n_samples: float
+    n_observations: int
+    degrees_of_freedom: float
     n_features: int
     alpha: float
     standardized: bool = False
+    warnings: tuple = ()
 
     def to_dict(self) -> dict:
-        """Plain Python types only, ready for ``json.dumps``."""
+        """Plain Python types only, ready for ``json.dumps``.
+
+        The keys are the attribute names; arrays become lists of floats,
+        ``warnings`` a list of strings.
+        """
         out = {}
         for name in self.__dataclass_fields__:
             value = getattr(self, name)
             if isinstance(value, np.ndarray):
                 value = [float(v) for v in value]
+            elif isinstance(value, tuple):
+                value = [str(v) for v in value]
             elif isinstance(value, (bool, np.bool_)):
                 value = bool(value)
             elif isinstance(value, (int, np.integer)):
@@ -104,16 +147,15 @@ class SpectrumReport:
     def __str__(self) -> str:
         kind = "correlation" if self.standardized else "covariance"
         rows = [
-            (
-                "features N, degrees of freedom n",
-                f"{self.n_features}, {self.n_samples:g}",
-            ),
-            ("eigenvalues above the noise", f"{self.n_signal} (level {self.alpha:g})"),
-            ("noise variance", f"{self.noise_variance:.6g}"),
-            ("ratio of the bulk", f"{self.ratio:.6g}"),
-            ("bulk edge", f"{self.bulk_edge:.6g}"),
-            ("next test threshold", f"{self.threshold:.6g}"),
-            ("bulk fit KS distance", f"{self.bulk_statistic:.4g}"),
+            ("n_observations, n_features", f"{self.n_observations}, {self.n_features}"),
+            ("degrees_of_freedom", f"{self.degrees_of_freedom:g}"),
+            ("n_signal", f"{self.n_signal} (level {self.alpha:g})"),
+            ("noise_variance", f"{self.noise_variance:.6g}"),
+            ("ratio", f"{self.ratio:.6g}"),
+            ("bulk_edge", f"{self.bulk_edge:.6g}"),
+            ("critical_spike", f"{self.critical_spike:.6g}"),
+            ("threshold", f"{self.threshold:.6g}"),
+            ("bulk_statistic (KS)", f"{self.bulk_statistic:.4g}"),
         ]
         width = max(len(label) for label, _ in rows)
         lines = [f"Spectrum report ({kind} matrix)"]
@@ -130,8 +172,142 @@ class SpectrumReport:
             else:
                 spike, overlap = f"{'(noise)':>12}", f"{'':>8}"
             lines.append(f"  {rank:>4}  {value:12.6g}  {p:10.3g}  {spike}  {overlap}")
+        lines += [f"warning: {message}" for message in self.warnings]
         lines.append(CAUTION)
         return "\n".join(lines)
+
+
+def _fit_warnings(fit, ratio, n_signal, n_features, n_samples, level):
+    """The words a failed bulk fit owes the user (empty if the fit holds)."""
+    if fit.statistic <= level:
+        return []
+    head = (
+        f"the Marchenko-Pastur law does not describe this spectrum (bulk fit "
+        f"KS distance {fit.statistic:.2g} > {level:.2g})"
+    )
+    if ratio < LONG_SAMPLE_RATIO:
+        return [
+            f"{head}: with {n_samples / n_features:.0f} observations per "
+            "variable the population spectrum shows through, so the sample "
+            "covariance is already close to it and cleaning changes little; "
+            f"the signal count ({n_signal}) is not meaningful."
+        ]
+    return [
+        f"{head}: the noise is not white (heavy tails, correlated noise or a "
+        "spread population spectrum); read the signal count "
+        f"({n_signal}) and the noise variance as rough guides, not test results."
+    ]
+
+
+def _bulk_model(values, n, n_features, k, fix_ratio):
+    """Fit with k set aside and the noise law (s2, q, edge) it implies."""
+    fit = _fit_bulk(values, n, n_features, k, fix_ratio, "cvm")
+    nominal = n_features / n
+    # fit.ratio is the ratio of the bulk left, (N - k)/(n - k) when fixed;
+    # a fitted one is rescaled by the same factor to the whole spectrum.
+    q = nominal if fix_ratio else fit.ratio * nominal / ((n_features - k) / (n - k))
+    s2 = fit.noise_variance
+    return fit, q, s2, s2 * (1.0 + math.sqrt(q)) ** 2
+
+
+def spectrum_report(
+    spectrum: SampleSpectrum,
+    *,
+    alpha: float = 0.05,
+    constants: str = DEFAULT_CONSTANTS,
+    max_signal: int | None = None,
+    fix_ratio: bool = True,
+    n_observations: int | None = None,
+) -> SpectrumReport:
+    """The spectrum report of a sample spectrum already computed.
+
+    The one detection behind :func:`analyze_spectrum`, the estimators'
+    ``n_signal_`` and the ``rmtclean`` command's figures: the same spectrum
+    and options give the same count everywhere.
+
+    Parameters
+    ----------
+    spectrum : SampleSpectrum
+        E.g. :func:`rmtclean.spectrum.sample_spectrum` or a fitted
+        estimator's sample spectrum.
+    alpha, constants, max_signal, fix_ratio
+        As for :func:`analyze_spectrum`.
+    n_observations : int, optional
+        Rows of the data, for the report; default ``round(n_samples + 1)``.
+
+    Returns
+    -------
+    SpectrumReport
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from rmtclean.spectrum import sample_spectrum, spectrum_report
+    >>> X = np.random.default_rng(0).standard_normal((400, 100))
+    >>> spectrum_report(sample_spectrum(X)).n_signal
+    0
+    """
+    function = "analyze_spectrum"
+    alpha = _check_alpha(alpha, function)
+    fix_ratio = _check_bool(fix_ratio, "fix_ratio", function)
+    n, n_features = float(spectrum.n_samples), int(spectrum.n_features)
+    # rounding-error zeros (repeated rows, collinear columns) are null space
+    values = spectrum.eigenvalues[: _numerical_rank(spectrum.eigenvalues, n)]
+    if values.size < 3 or math.ceil(n) < 3:
+        raise ValueError(
+            f"{function} needs at least 3 nonzero sample eigenvalues and 3 degrees "
+            f"of freedom. Got {values.size} eigenvalue(s) and {n:g} degrees of "
+            "freedom."
+        )
+    high = min(values.size - 2, math.ceil(n) - 2)
+    if max_signal is None:
+        max_signal = high
+    max_signal, _ = _check_edge_options(
+        values, n, max_signal, constants, None, function
+    )
+    max_signal = min(max_signal, high)
+    # One fit to the whole spectrum, ratio fixed (or free), sets the level no
+    # signal eigenvalue may fall under: refitting without the signal at each
+    # step would lower it and, on spectra that are not Marchenko-Pastur,
+    # cascade into the bulk.
+    whole_edge = _bulk_model(values, n, n_features, 0, fix_ratio)[3]
+    test = _detect_signal(
+        values, n, n_features, alpha, max_signal, constants, None, True, whole_edge
+    )
+    k = test.n_signal
+    fit, q, s2, edge = _bulk_model(values, n, n_features, k, fix_ratio)
+    while k and not values[k - 1] > edge:  # a consistent report by construction
+        k -= 1
+        fit, q, s2, edge = _bulk_model(values, n, n_features, k, fix_ratio)
+    spikes = _invert_spikes(values[:k], q, s2)
+    messages = _fit_warnings(fit, q, k, n_features, n, fit_warning_level(fit.n_used))
+    if k == max_signal and k < high:
+        messages.append(
+            f"the count stopped at max_signal={max_signal}: more eigenvalues may "
+            "stand above the noise."
+        )
+    return SpectrumReport(
+        n_signal=k,
+        noise_variance=s2,
+        ratio=q,
+        bulk_edge=edge,
+        critical_spike=s2 * (1.0 + math.sqrt(q)),
+        threshold=max(test.threshold, whole_edge),
+        p_values=test.p_values,
+        statistics=test.statistics,
+        spike_strengths=spikes.spikes,
+        overlaps=spikes.overlaps,
+        eigenvalues=spectrum.eigenvalues.copy(),
+        bulk_statistic=fit.statistic,
+        n_observations=int(round(n + 1))
+        if n_observations is None
+        else int(n_observations),
+        degrees_of_freedom=n,
+        n_features=n_features,
+        alpha=alpha,
+        standardized=spectrum.scale is not None,
+        warnings=tuple(messages),
+    )
 
 
 def analyze_spectrum(
@@ -165,26 +341,59 @@ def analyze_spectrum(
     max_signal : int or None, default=None
         Largest number of signal eigenvalues to declare.
     fix_ratio : bool, default=True
-        Fix the ratio of the bulk law by the sizes (else fit it).
+        Hold the ratio of the noise law at ``N / n`` and fit only the noise
+        variance (Laloux et al. [2]_); if False, fit an effective ratio too,
+        within ``[N / n, 4 N / n]``.
 
     Returns
     -------
     SpectrumReport
-        See its attributes; ``print`` it for a table.
+        See its attributes; ``print`` it for a table. Read its
+        ``warnings`` first.
 
     See Also
     --------
-    rmtclean.spectrum.detect_signal : the signal count.
+    spectrum_report : the same on a sample spectrum already computed.
+    rmtclean.spectrum.detect_signal : the sequential tests.
     rmtclean.spectrum.fit_bulk : the noise variance and bulk edges.
-    rmtclean.spectrum._spikes.invert_spikes : spikes and overlaps.
+    rmtclean.spectrum.invert_spikes : spikes and overlaps.
 
     Notes
     -----
-    The signal count comes from :func:`~rmtclean.spectrum.detect_signal`,
-    the noise level from :func:`~rmtclean.spectrum.fit_bulk` with that many
-    eigenvalues set aside, and the spikes and overlaps from the
-    Baik-Ben Arous-Peche inversion at ratio ``N / n`` and the fitted noise
-    variance. All are estimates from one sample.
+    Three steps, one consistent answer:
+
+    1. The Marchenko-Pastur law is fitted to the whole spectrum (minimum
+       Cramer-von Mises distance, ratio ``q = N / n`` held, as Laloux et
+       al. [2]_ fit the variance with ``q`` known); its upper edge is the
+       level no signal eigenvalue may fall under.
+    2. Sequential Tracy-Widom tests (Johnstone [1]_; noise re-estimated at
+       each step, as Kritchman & Nadler [3]_) declare the largest
+       eigenvalues signal one by one, and stop at the first that is not
+       rejected or not above that level: they never continue into the bulk.
+    3. The noise variance ``s2`` is refitted with the ``k`` signal
+       eigenvalues set aside (:func:`~rmtclean.spectrum.fit_bulk`), and each
+       signal eigenvalue is inverted to its spike and overlap by the
+       Baik-Ben Arous-Peche map at ``(q, s2)``.
+
+    By construction every signal eigenvalue lies above ``bulk_edge``, so its
+    spike lies above the BBP threshold ``critical_spike`` and its overlap is
+    positive. When the fitted law does not describe the bulk (Kolmogorov-
+    Smirnov distance above ``max(0.1, 4 / m)`` for ``m`` fitted
+    eigenvalues), ``warnings`` says so and what it means: on long samples of
+    real data the population spectrum, which has no flat part, shows
+    through, and the count is not meaningful.
+
+    References
+    ----------
+    .. [1] Johnstone, I. M. (2001). On the distribution of the largest
+       eigenvalue in principal components analysis. Ann. Statist. 29(2),
+       295-327.
+    .. [2] Laloux, L., Cizeau, P., Bouchaud, J.-P. and Potters, M. (1999).
+       Noise dressing of financial correlation matrices. Phys. Rev. Lett.
+       83(7), 1467-1470.
+    .. [3] Kritchman, S. and Nadler, B. (2009). Non-parametric detection of
+       the number of signals: hypothesis testing and random matrix theory.
+       IEEE Trans. Signal Process. 57(10), 3930-3941.
 
     Examples
     --------
@@ -196,50 +405,20 @@ def analyze_spectrum(
     >>> report = analyze_spectrum(rng.standard_normal((400, 100)) * scales)
     >>> report.n_signal, round(float(report.spike_strengths[0]), 0)
     (1, 9.0)
+    >>> report.warnings
+    ()
     """
-    function = "analyze_spectrum"
-    alpha = _check_alpha(alpha, function)
-    fix_ratio = _check_bool(fix_ratio, "fix_ratio", function)
     spec = sample_spectrum(
         X,
         assume_centered=assume_centered,
         sample_weight=sample_weight,
         standardize=standardize,
     )
-    n, n_features = float(spec.n_samples), spec.n_features
-    # rounding-error zeros (repeated rows, collinear columns) are null space
-    values = spec.eigenvalues[: _numerical_rank(spec.eigenvalues, n)]
-    if values.size < 3 or math.ceil(n) < 3:
-        raise ValueError(
-            f"{function} needs at least 3 nonzero sample eigenvalues and 3 degrees "
-            f"of freedom. Got {values.size} eigenvalue(s) and {n:g} degrees of "
-            "freedom."
-        )
-    high = min(values.size - 2, math.ceil(n) - 2)
-    if max_signal is None:
-        max_signal = high
-    max_signal, _ = _check_edge_options(
-        values, n, max_signal, constants, None, function
-    )
-    max_signal = min(max_signal, high)
-    test = _detect_signal(values, n, n_features, alpha, max_signal, constants, None)
-    k = test.n_signal
-    fit = _fit_bulk(values, n, n_features, k, fix_ratio, "cvm")
-    spikes = invert_spikes(values[:k], n_features / n, fit.noise_variance)
-    return SpectrumReport(
-        n_signal=k,
-        noise_variance=fit.noise_variance,
-        ratio=fit.ratio,
-        bulk_edge=fit.upper_edge,
-        threshold=test.threshold,
-        p_values=test.p_values,
-        statistics=test.statistics,
-        spike_strengths=spikes.spikes,
-        overlaps=spikes.overlaps,
-        eigenvalues=spec.eigenvalues.copy(),
-        bulk_statistic=fit.statistic,
-        n_samples=n,
-        n_features=int(n_features),
+    return spectrum_report(
+        spec,
         alpha=alpha,
-        standardized=bool(standardize),
+        constants=constants,
+        max_signal=max_signal,
+        fix_ratio=fix_ratio,
+        n_observations=int(np.shape(X)[0]),
     )
