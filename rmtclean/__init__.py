@@ -1,22 +1,12 @@
-"""rmtclean: clean large sample covariance matrices with random-matrix theory."""
+"""rmtclean: clean large sample covariance matrices with random-matrix theory.
 
-from rmtclean.estimators import (
-    EigenClip,
-    KernelShrink,
-    LinearShrink,
-    SpectralCovariance,
-    SpikeShrink,
-    SplitShrink,
-    StieltjesShrink,
-)
-from rmtclean.rules import CleanedEigenvalues
-from rmtclean.spectrum import (
-    CleanedSpectrum,
-    SampleSpectrum,
-    SpectrumReport,
-    analyze_spectrum,
-    sample_spectrum,
-)
+The public names load on first access (module ``__getattr__``), so
+``import rmtclean`` and the ``rmtclean`` command's parser stay fast: the
+estimators, scikit-learn and the compiled kernels are imported when first
+used.
+"""
+
+import importlib
 
 __version__ = "0.1.0"
 
@@ -35,3 +25,27 @@ __all__ = [
     "analyze_spectrum",
     "sample_spectrum",
 ]
+
+# Where each public name lives; the estimators (every other name) live in
+# rmtclean.estimators.
+_HOMES = {
+    "CleanedEigenvalues": "rmtclean.rules",
+    "CleanedSpectrum": "rmtclean.spectrum",
+    "SampleSpectrum": "rmtclean.spectrum",
+    "SpectrumReport": "rmtclean.spectrum",
+    "analyze_spectrum": "rmtclean.spectrum",
+    "sample_spectrum": "rmtclean.spectrum",
+}
+
+
+def __getattr__(name: str):
+    if name not in __all__:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    home = _HOMES.get(name, "rmtclean.estimators")
+    value = getattr(importlib.import_module(home), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(__all__))

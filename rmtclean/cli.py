@@ -1,16 +1,41 @@
-"""The ``rmtclean`` command."""
+"""The ``rmtclean`` command.
+
+Conventions: results go to standard output (``clean`` without ``--out``
+writes the matrix there as CSV), messages to standard error when standard
+output carries data; every error is one line ``rmtclean COMMAND: error:
+...`` with exit code 1 (2 for usage errors), every library warning one line
+``rmtclean COMMAND: warning: ...``; both speak of flags and column names.
+
+Start-up is kept short: the parser imports no numerical library, and each
+command's options are built only when that command runs.
+"""
 
 from __future__ import annotations
 
 import argparse
-import json
+import re
 import sys
+import warnings
 from pathlib import Path
 
-__all__ = ["main", "build_parser"]
+from rmtclean import __version__
+
+__all__ = ["DEFAULT_METHOD", "build_parser", "main"]
 
 #: Fewest observations (after any price conversion) the data commands accept.
 MIN_ROWS = 3
+#: The cleaner ``rmtclean clean`` uses without ``--method``.
+DEFAULT_METHOD = "kernel"
+# Python parameter -> the flag that sets it, for messages.
+_FLAGS = {
+    "half_life": "--half-life",
+    "vol_half_life": "--vol-half-life",
+    "missing": "--missing",
+    "standardize": "--standardize",
+    "random_state": "--seed",
+}
+# Share of column names reading as dates above which a file looks transposed.
+_DATE_HEADER_SHARE = 0.8
 
 
 def _cmd_demo(args) -> int:
@@ -34,6 +59,85 @@ def _cmd_demo(args) -> int:
     return 0
 
 
+def _add_demo_arguments(demo) -> None:
+    demo.add_argument(
+        "--assets", type=int, default=300, help="number of assets (default 300)"
+    )
+    demo.add_argument(
+        "--days", type=int, default=500, help="number of days (default 500)"
+    )
+    demo.add_argument("--seed", type=int, default=7, help="scenario seed (default 7)")
+    demo.set_defaults(func=_cmd_demo)
+
+
+# -- messages -----------------------------------------------------------------
+def _warn(args, text: str) -> None:
+    """One ``rmtclean COMMAND: warning: ...`` line on standard error."""
+    print(f"rmtclean {args.command}: warning: {text}", file=sys.stderr)
+
+
+def _cli_language(message: str, columns=None) -> str:
+    """``message`` on one line, with flags for parameters and names for columns.
+
+    Library messages name Python parameters (``The 'half_life' parameter of
+    EigenClip``, ``missing='em'``) and 0-based column positions; the command
+    line knows flags and the file's column names.
+    """
+    text = " ".join(str(message).split())
+
+    def flag(match):
+        return _FLAGS.get(match.group(1), match.group(0))
+
+    text = re.sub(r"The '(\w+)' parameter of \w+(?:\.\w+)?", flag, text)
+    text = re.sub(r"^[A-Z]\w*\.fit: ", "", text)  # the method is on the command
+    text = re.sub(
+        r"\b(\w+)='([^']*)'",
+        lambda m: (
+            f"{_FLAGS[m.group(1)]} {m.group(2)}" if m.group(1) in _FLAGS else m.group(0)
+        ),
+        text,
+    )
+    text = re.sub(
+        r"\b(\w+)=True\b",
+        lambda m: _FLAGS.get(m.group(1), m.group(0)),
+        text,
+    )
+    text = re.sub(
+        r"(?<![-\w'])(half_life|vol_half_life)\b", lambda m: _FLAGS[m.group(1)], text
+    )
+    if columns is not None:
+        names = [str(c) for c in columns]
+
+        def name(match):
+            j = int(match.group(2))
+            return f"{match.group(1)}{names[j]!r}" if j < len(names) else match.group(0)
+
+        text = re.sub(r"(first )index (\d+)\b", name, text)
+        text = re.sub(r"(columns? )(\d+)\b", name, text)
+        text = re.sub(r"(\band )(\d+)(?= share\b)", name, text)
+    return text
+
+
+class _WarningLines(warnings.catch_warnings):
+    """Show each library warning once, as one line in the CLI's language."""
+
+    def __init__(self, args):
+        super().__init__()
+        self._args = args
+        self._seen = set()
+
+    def __enter__(self):
+        out = super().__enter__()
+        warnings.showwarning = self._show
+        return out
+
+    def _show(self, message, category, filename, lineno, file=None, line=None):
+        text = _cli_language(message, getattr(self._args, "columns", None))
+        if text not in self._seen:
+            self._seen.add(text)
+            _warn(self._args, text)
+
+
 # -- clean and analyze --------------------------------------------------------
 def _method_choices() -> str:
     """The registry's short names with their descriptions, on one line."""
@@ -54,6 +158,37 @@ def _method_name(text: str) -> str:
         ) from None
 
 
+def _positive_rows(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        value = float("nan")
+    if not value > 0 or value == float("inf"):
+        raise argparse.ArgumentTypeError(
+            f"expected a positive number of rows, got {text!r}"
+        )
+    return value
+
+
+def _source(args) -> str:
+    return f"DATA {args.data!r}"
+
+
+def _hint_if_transposed(frame, args) -> None:
+    """Warn when the column names read as dates: rows should be the dates."""
+    from rmtclean.io import date_like_labels
+
+    n_dates = date_like_labels(frame.columns)
+    n_columns = frame.shape[1]
+    if n_columns >= 3 and n_dates >= _DATE_HEADER_SHARE * n_columns:
+        _warn(
+            args,
+            f"{n_dates} of the {n_columns} column names of {args.data} read as "
+            "dates: rows must be observations and columns variables; if the file "
+            "holds one variable per row, transpose it first.",
+        )
+
+
 def _load_returns(args):
     """The returns table of ``args.data``: read, checked, prices handled."""
     from rmtclean.io import (
@@ -64,13 +199,22 @@ def _load_returns(args):
         successive_difference_ratio,
     )
 
-    source = f"DATA {args.data!r}"
+    source = _source(args)
     frame = read_table(args.data)
+    _hint_if_transposed(frame, args)
     extra = 1 if args.from_prices else 0
     frame = numeric_matrix(frame, min_rows=MIN_ROWS + extra, source=source)
+    constant = [str(c) for c in frame.columns[frame.nunique(dropna=True) <= 1]]
+    if constant and not args.standardize:
+        shown = ", ".join(repr(c) for c in constant[:3])
+        _warn(
+            args,
+            f"{len(constant)} column(s) of {args.data} are constant ({shown}"
+            f"{' ...' if len(constant) > 3 else ''}): they carry no covariance.",
+        )
     if args.from_prices:
-        return prices_to_returns(frame)
-    if not args.assume_returns and looks_like_prices(frame.to_numpy()):
+        frame = prices_to_returns(frame)
+    elif not args.assume_returns and looks_like_prices(frame.to_numpy()):
         import numpy as np
 
         ratio = float(np.nanmedian(successive_difference_ratio(frame.to_numpy())))
@@ -80,18 +224,74 @@ def _load_returns(args):
             f"ratio {ratio:.3g}, returns give about 1). Pass --from-prices to "
             "convert to log returns, or --assume-returns to use them as they are."
         )
-    return frame
+    return _handle_missing(frame, args)
 
 
-def _check_complete(frame, args, source: str) -> None:
-    n_missing = int(frame.isna().to_numpy().sum())
-    if n_missing and getattr(args, "missing", None) is None:
-        hint = (
-            "pass --missing pairwise or --missing em to estimate from incomplete data"
-            if hasattr(args, "missing")
-            else "fill or drop them first (rmtclean clean accepts --missing)"
+def _missing_choices(args) -> str:
+    """The ``--missing`` values that work for this command and method."""
+    from rmtclean.estimators import find_cleaner
+
+    method = getattr(args, "method", None)
+    if method is None or find_cleaner(method).takes_missing:
+        return "--missing drop, --missing pairwise or --missing em"
+    return "--missing drop"
+
+
+def _check_missing_option(args) -> None:
+    """Refuse, before reading anything, a --missing value the run cannot use."""
+    from rmtclean.estimators import CLEANERS, find_cleaner
+
+    if args.missing not in ("pairwise", "em"):
+        return
+    method = getattr(args, "method", None)
+    if method is not None and not find_cleaner(method).takes_missing:
+        entry = find_cleaner(method)
+        able = ", ".join(e.short for e in CLEANERS if e.takes_missing)
+        raise ValueError(
+            f"--missing {args.missing} needs a method that works from a "
+            f"covariance estimate ({able}); --method {entry.short} needs complete "
+            "rows: use --missing drop to drop the incomplete rows."
         )
-        raise ValueError(f"{source} has {n_missing} missing value(s); {hint}.")
+    for name in ("half_life", "vol_half_life"):
+        if getattr(args, name, None) is not None:
+            raise ValueError(
+                f"--missing {args.missing} cannot weight rows ({_FLAGS[name]}); "
+                "use --missing drop to drop the incomplete rows."
+            )
+
+
+def _handle_missing(frame, args):
+    """The shared pre-step of clean and analyze for missing values (NaN).
+
+    Without ``--missing`` they are refused; ``drop`` drops incomplete rows
+    (every method); ``pairwise`` and ``em`` keep them for the estimate.
+    """
+    mask = frame.isna()
+    n_missing = int(mask.to_numpy().sum())
+    if not n_missing:
+        return frame
+    cols = [str(c) for c in frame.columns[mask.any(axis=0).to_numpy()]]
+    where = ", ".join(repr(c) for c in cols[:3]) + (" ..." if len(cols) > 3 else "")
+    if args.missing is None:
+        raise ValueError(
+            f"{_source(args)} has {n_missing} missing value(s) in {len(cols)} "
+            f"column(s) ({where}); pass {_missing_choices(args)}."
+        )
+    if args.missing == "drop":
+        kept = frame.dropna()
+        if kept.shape[0] < MIN_ROWS:
+            raise ValueError(
+                f"--missing drop leaves {kept.shape[0]} complete row(s) of "
+                f"{frame.shape[0]} in {_source(args)}; at least {MIN_ROWS} are "
+                "needed: try --missing pairwise or --missing em."
+            )
+        _warn(
+            args,
+            f"--missing drop: dropped {frame.shape[0] - kept.shape[0]} of "
+            f"{frame.shape[0]} rows with missing values ({where}).",
+        )
+        return kept
+    return frame
 
 
 def _build_estimator(args):
@@ -104,14 +304,16 @@ def _build_estimator(args):
         wanted["half_life"] = args.half_life
     if getattr(args, "vol_half_life", None) is not None:
         wanted["vol_half_life"] = args.vol_half_life
-    if args.missing is not None:
+    if args.missing in ("pairwise", "em"):
         wanted["missing"] = args.missing
     if "random_state" in params:
         wanted["random_state"] = args.seed
     for name, value in wanted.items():
         if name not in params and value not in (False, None):
-            flag = "--" + name.replace("_", "-")
-            raise ValueError(f"{flag}: {args.method} has no {name!r} parameter.")
+            raise ValueError(
+                f"{_FLAGS[name]}: --method {find_cleaner(args.method).short} "
+                "does not take it."
+            )
     return est.set_params(**{k: v for k, v in wanted.items() if k in params})
 
 
@@ -151,8 +353,9 @@ def _cmd_clean(args) -> int:
     from rmtclean.demo import CAUTION
     from rmtclean.io import write_table
 
+    _check_missing_option(args)
     frame = _load_returns(args)
-    _check_complete(frame, args, f"DATA {args.data!r}")
+    args.columns = frame.columns
     est = _build_estimator(args).fit(frame)
     kind = args.kind or ("correlation" if args.standardize else "covariance")
     matrix = (
@@ -160,37 +363,51 @@ def _cmd_clean(args) -> int:
     )
     # Build everything before writing anything: a failure leaves no file.
     fig = _report_figure(est, frame, args) if args.report else None
-    if args.out:
-        write_table(matrix, args.out)
+    target = args.out or "-"
+    # Messages go to standard error when standard output carries the matrix.
+    say = sys.stderr if target == "-" else sys.stdout
+    write_table(matrix, target)
     if fig is not None:
         _save_figure(fig, args.report)
     T, N = frame.shape
     signal = "not computed" if est.n_signal_ is None else str(est.n_signal_)
-    print(f"{args.method} on {args.data}: {T} observations of {N} variables")
-    print(
+    where = "standard output" if target == "-" else target
+    lines = [
+        f"{args.method} on {args.data}: {T} observations of {N} variables",
         f"  degrees of freedom: {est.degrees_of_freedom_:.6g}  (N / dof = "
-        f"{N / est.degrees_of_freedom_:.4g})"
-    )
-    print(f"  signal eigenvalues: {signal}")
-    print(
-        f"  cleaned {kind}: "
-        + (f"written to {args.out}" if args.out else "not written (no --out)")
-    )
+        f"{N / est.degrees_of_freedom_:.4g})",
+        f"  signal eigenvalues: {signal}",
+        f"  cleaned {kind}: written to {where}",
+    ]
     if args.report:
-        print(f"  figure: {args.report}")
-    print()
-    print(CAUTION)
+        lines.append(f"  figure: {args.report}")
+    print("\n".join(lines) + "\n\n" + CAUTION, file=say)
     return 0
 
 
+def _spectrum_report(frame, args):
+    """``analyze_spectrum`` of the table, through --missing pairwise/em if asked."""
+    from rmtclean.spectrum import analyze_spectrum, spectrum_report
+
+    if args.missing in ("pairwise", "em") and frame.isna().to_numpy().any():
+        from rmtclean.missing import missing_sample_spectrum
+
+        spectrum = missing_sample_spectrum(
+            frame.to_numpy(), method=args.missing, standardize=args.standardize
+        )
+        return spectrum_report(spectrum, n_observations=frame.shape[0])
+    return analyze_spectrum(frame.to_numpy(), standardize=args.standardize)
+
+
 def _cmd_analyze(args) -> int:
+    import json
+
     from rmtclean.demo import CAUTION
 
+    _check_missing_option(args)
     frame = _load_returns(args)
-    _check_complete(frame, args, f"DATA {args.data!r}")
-    from rmtclean.spectrum import analyze_spectrum
-
-    report = analyze_spectrum(frame.to_numpy(), standardize=args.standardize)
+    args.columns = frame.columns
+    report = _spectrum_report(frame, args)
     if args.json:
         payload = {
             "data": str(args.data),
@@ -222,18 +439,15 @@ def _json_default(value):
     raise TypeError(f"cannot write {type(value).__name__} as JSON")
 
 
-def _add_data_arguments(parser) -> None:
+def _add_data_arguments(parser, standardize_help: str) -> None:
     parser.add_argument(
         "data",
         metavar="DATA",
-        help="CSV, TSV or Parquet file (or .npy): rows are observations, columns "
-        "variables; a first column of labels (dates, names) is the index",
+        help="CSV (comma, semicolon or tab separated), TSV or Parquet file, or "
+        ".npy: rows are observations, columns variables; a first column of "
+        "labels (dates, names) is the index",
     )
-    parser.add_argument(
-        "--standardize",
-        action="store_true",
-        help="work on the correlation matrix (clean it, then restore variances)",
-    )
+    parser.add_argument("--standardize", action="store_true", help=standardize_help)
     parser.add_argument(
         "--from-prices",
         action="store_true",
@@ -244,57 +458,51 @@ def _add_data_arguments(parser) -> None:
         action="store_true",
         help="skip the price check (positive data moving in small steps)",
     )
-
-
-def _add_data_parsers(sub) -> None:
-    fmt = argparse.RawDescriptionHelpFormatter
-    clean = sub.add_parser(
-        "clean",
-        help="clean the covariance of a data file and write it with its labels",
-        formatter_class=fmt,
-        description="Clean the sample covariance (or correlation) of DATA with a "
-        "random-matrix cleaner and write it, labelled by DATA's column names, to "
-        "--out (CSV, Parquet or .npy by extension). --report draws the sample "
-        "spectrum with the fitted Marchenko-Pastur density and the cleaner's "
-        "shrinkage curve.",
-        epilog="examples:\n"
-        "  rmtclean clean returns.csv --method KernelShrink --out cov.parquet\n"
-        "  rmtclean clean prices.csv --from-prices --method EigenClip "
-        "--standardize --out corr.csv --report spectrum.png",
-    )
-    _add_data_arguments(clean)
-    clean.add_argument(
+    parser.add_argument(
         "--missing",
-        choices=("pairwise", "em"),
-        help="estimate from incomplete data (NaN or empty cells): pairwise "
-        "deletion or Gaussian EM; default: refuse missing values",
+        choices=("drop", "pairwise", "em"),
+        help="how to use data with missing values (NaN or empty cells): drop = "
+        "drop the incomplete rows (any method); pairwise = pairwise-deletion "
+        "covariance, em = Gaussian EM estimate (methods that work from a "
+        "covariance estimate, no row weights). Default: refuse missing values",
+    )
+
+
+def _add_clean_arguments(clean) -> None:
+    _add_data_arguments(
+        clean, "work on the correlation matrix (clean it, then restore variances)"
     )
     clean.add_argument(
         "--method",
-        required=True,
+        default=DEFAULT_METHOD,
         type=_method_name,
         metavar="NAME",
         help=f"the cleaner, one of {_method_choices()}. Class names and "
-        "aliases are accepted too, in any case",
+        f"aliases are accepted too, in any case (default: {DEFAULT_METHOD})",
     )
-    clean.add_argument("--out", metavar="FILE", help="where to write the matrix")
+    clean.add_argument(
+        "--out",
+        metavar="FILE",
+        help="where to write the matrix: .csv, .tsv, .parquet or .npy (default: "
+        "CSV on standard output, messages then on standard error)",
+    )
     clean.add_argument(
         "--kind",
         choices=("covariance", "correlation"),
-        help="which matrix --out holds (default: correlation with --standardize, "
+        help="which matrix is written (default: correlation with --standardize, "
         "else covariance)",
     )
     clean.add_argument("--report", metavar="FILE.png", help="where to save the figure")
     clean.add_argument(
         "--half-life",
-        type=float,
+        type=_positive_rows,
         metavar="ROWS",
         help="weight rows exponentially (last row newest); the effective sample "
         "size replaces the number of rows",
     )
     clean.add_argument(
         "--vol-half-life",
-        type=float,
+        type=_positive_rows,
         metavar="ROWS",
         help="devolatilise each column by its causal EWMA volatility with this "
         "half-life (rows in time order), clean the correlation and scale it by "
@@ -306,19 +514,13 @@ def _add_data_parsers(sub) -> None:
     )
     clean.set_defaults(func=_cmd_clean)
 
-    analyze = sub.add_parser(
-        "analyze",
-        help="print the bulk report of a data file's spectrum",
-        formatter_class=fmt,
-        description="Fit the Marchenko-Pastur law to the bulk of DATA's sample "
-        "spectrum and report the noise variance, the effective ratio, the edge, "
-        "the signal eigenvalues with Tracy-Widom p-values, spike strengths and "
-        "eigenvector overlaps.",
-        epilog="examples:\n"
-        "  rmtclean analyze returns.csv --standardize\n"
-        "  rmtclean analyze expression.parquet --json > report.json",
+
+def _add_analyze_arguments(analyze) -> None:
+    _add_data_arguments(
+        analyze,
+        "analyse the correlation matrix (every column scaled to unit "
+        "variance) instead of the covariance",
     )
-    _add_data_arguments(analyze)
     analyze.add_argument(
         "--json", action="store_true", help="print the report as JSON for machines"
     )
@@ -338,27 +540,37 @@ def _csv_list(kind):
     return parse
 
 
-def _add_bench_parser(sub) -> None:
-    from rmtclean.bench import available_cleaners
+def _add_bench_arguments(bench) -> None:
+    from rmtclean.bench import BenchConfig, available_cleaners
     from rmtclean.synthetic import DESIGNS, DISTRIBUTIONS
 
-    bench = sub.add_parser(
-        "bench",
-        help="compare cleaners on planted-signal designs",
-        description="Compare every cleaner on planted-signal designs with known "
-        "truth: losses, PRIAL, held-out likelihood, condition number, fit time "
-        "and memory. Results are appended to OUT/results.jsonl, so rerunning an "
-        "interrupted command resumes it.",
-        epilog="example: rmtclean bench --quick --out bench-out",
-    )
+    default = BenchConfig()
+    quick = BenchConfig.quick()
+
+    def listed(values) -> str:
+        return ",".join(f"{v:g}" if isinstance(v, float) else str(v) for v in values)
+
     bench.add_argument(
         "--designs",
         type=_csv_list(str),
-        help=f"comma-separated designs among {', '.join(DESIGNS)}",
+        help=f"comma-separated designs among {', '.join(DESIGNS)} (default: "
+        f"{listed(default.designs)})",
     )
-    bench.add_argument("--sizes", type=_csv_list(int), help="comma-separated N")
-    bench.add_argument("--ratios", type=_csv_list(float), help="comma-separated T/N")
-    bench.add_argument("--repeats", type=int, help="repetitions per grid point")
+    bench.add_argument(
+        "--sizes",
+        type=_csv_list(int),
+        help=f"comma-separated N (default: {listed(default.sizes)})",
+    )
+    bench.add_argument(
+        "--ratios",
+        type=_csv_list(float),
+        help=f"comma-separated T/N (default: {listed(default.ratios)})",
+    )
+    bench.add_argument(
+        "--repeats",
+        type=int,
+        help=f"repetitions per grid point (default: {default.repeats})",
+    )
     bench.add_argument(
         "--cleaners",
         type=_csv_list(str),
@@ -368,7 +580,8 @@ def _add_bench_parser(sub) -> None:
     bench.add_argument(
         "--quick",
         action="store_true",
-        help="small grid (4 designs, N=100, 4 ratios, 3 repetitions), < 60 s",
+        help=f"small grid ({len(quick.designs)} designs, N={listed(quick.sizes)}, "
+        f"{len(quick.ratios)} ratios, {quick.repeats} repetitions), < 60 s",
     )
     bench.add_argument(
         "--out", default="bench-out", help="output directory (default bench-out)"
@@ -376,11 +589,20 @@ def _add_bench_parser(sub) -> None:
     bench.add_argument(
         "--n-jobs", type=int, default=1, help="parallel draws (joblib), -1 = all"
     )
-    bench.add_argument("--seed", type=int, help="seed of the run (default 0)")
     bench.add_argument(
-        "--distribution", choices=DISTRIBUTIONS, help="sampler law (default gaussian)"
+        "--seed", type=int, help=f"seed of the run (default: {default.seed})"
     )
-    bench.add_argument("--df", type=float, help="degrees of freedom of the t laws")
+    bench.add_argument(
+        "--distribution",
+        choices=DISTRIBUTIONS,
+        help=f"sampler law (default: {default.distribution})",
+    )
+    bench.add_argument(
+        "--df",
+        type=float,
+        help="degrees of freedom of the t laws (needed with --distribution "
+        "student-t or multivariate-t)",
+    )
     bench.add_argument("--rotate", action="store_true", help="Haar-rotate the designs")
     bench.add_argument(
         "--blas-threads",
@@ -469,43 +691,119 @@ def _cmd_bench(args) -> int:
     return 0
 
 
-def build_parser() -> argparse.ArgumentParser:
-    """The argument parser of the ``rmtclean`` command."""
+_FMT = argparse.RawDescriptionHelpFormatter
+# Each command: its add_parser keywords and the function adding its options.
+# The options are added only for the command that runs (they may import the
+# library to list choices and defaults); the one-line helps cost nothing.
+_COMMANDS = {
+    "demo": (
+        {
+            "help": "clean an invented market's covariance with every cleaner",
+            "description": "Clean the covariance of an invented market (planted "
+            "sector factors, fixed seed) with every cleaner and score each "
+            "against the known truth.",
+            "epilog": "example: rmtclean demo --assets 200 --days 400 --seed 3",
+        },
+        _add_demo_arguments,
+    ),
+    "analyze": (
+        {
+            "help": "print the bulk report of a data file's spectrum",
+            "formatter_class": _FMT,
+            "description": "Fit the Marchenko-Pastur law to the bulk of DATA's "
+            "sample spectrum and report the noise variance, the effective ratio, "
+            "the edge, the signal eigenvalues with Tracy-Widom p-values, spike "
+            "strengths and eigenvector overlaps.",
+            "epilog": "examples:\n"
+            "  rmtclean analyze returns.csv --standardize\n"
+            "  rmtclean analyze expression.parquet --json > report.json",
+        },
+        _add_analyze_arguments,
+    ),
+    "clean": (
+        {
+            "help": "clean the covariance of a data file and write it with its labels",
+            "formatter_class": _FMT,
+            "description": "Clean the sample covariance (or correlation) of DATA "
+            "with a random-matrix cleaner and write it, labelled by DATA's column "
+            "names, to --out (CSV, Parquet or .npy by extension) or as CSV to "
+            "standard output. --report draws the sample spectrum with the fitted "
+            "Marchenko-Pastur density and the cleaner's shrinkage curve.",
+            "epilog": "examples:\n"
+            "  rmtclean clean returns.csv > cov.csv\n"
+            "  rmtclean clean returns.csv --method clip --out cov.parquet\n"
+            "  rmtclean clean prices.csv --from-prices --method linear "
+            "--standardize --out corr.csv --report spectrum.png",
+        },
+        _add_clean_arguments,
+    ),
+    "bench": (
+        {
+            "help": "compare cleaners on planted-signal designs",
+            "description": "Compare every cleaner on planted-signal designs with "
+            "known truth: losses, PRIAL, held-out likelihood, condition number, "
+            "fit time and memory. Results are appended to OUT/results.jsonl, so "
+            "rerunning an interrupted command resumes it.",
+            "epilog": "example: rmtclean bench --quick --out bench-out",
+        },
+        _add_bench_arguments,
+    ),
+}
+
+
+def build_parser(command: str | None = "all") -> argparse.ArgumentParser:
+    """The argument parser of the ``rmtclean`` command.
+
+    Parameters
+    ----------
+    command : str or None, default="all"
+        The subcommand whose options are added (``"all"``: every one;
+        ``None``: none, enough for ``rmtclean --help`` and ``--version``).
+    """
     parser = argparse.ArgumentParser(
         prog="rmtclean",
-        description="Clean large sample covariance matrices with random-matrix theory.",
+        description="Clean large sample covariance matrices with random-matrix "
+        "theory. Run 'rmtclean COMMAND --help' for a command's options.",
+        epilog="example: rmtclean clean returns.csv --method kernel --out cov.csv",
+    )
+    parser.add_argument(
+        "--version", action="version", version=f"%(prog)s {__version__}"
     )
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
-    demo = sub.add_parser(
-        "demo",
-        help="clean an invented market's covariance with every cleaner",
-        description="Clean the covariance of an invented market (planted sector "
-        "factors, fixed seed) with every cleaner and score each against the "
-        "known truth.",
-        epilog="example: rmtclean demo --assets 200 --days 400 --seed 3",
-    )
-    demo.add_argument("--assets", type=int, default=300, help="number of assets")
-    demo.add_argument("--days", type=int, default=500, help="number of days")
-    demo.add_argument("--seed", type=int, default=7, help="scenario seed")
-    demo.set_defaults(func=_cmd_demo)
-    _add_data_parsers(sub)
-    _add_bench_parser(sub)
+    for name, (keywords, add_arguments) in _COMMANDS.items():
+        child = sub.add_parser(name, **keywords)
+        if command in ("all", name):
+            add_arguments(child)
     return parser
+
+
+def _command_of(argv) -> str | None:
+    """The subcommand ``argv`` names (its first word not an option), if any."""
+    return next((a for a in argv if not a.startswith("-")), None)
 
 
 def main(argv=None) -> int:
     """Run the ``rmtclean`` command; returns the exit code."""
-    parser = build_parser()
+    argv = list(sys.argv[1:] if argv is None else argv)
+    command = _command_of(argv)
+    parser = build_parser(command if command in _COMMANDS else None)
     args = parser.parse_args(argv)
     if getattr(args, "func", None) is None:
         parser.print_help()
         return 2
-    try:
-        return int(args.func(args))
-    except (ValueError, TypeError, OSError, ImportError) as exc:
-        message = " ".join(str(exc).split())  # one line, whatever raised it
-        print(f"rmtclean {args.command}: error: {message}", file=sys.stderr)
-        return 1
+    with _WarningLines(args):
+        try:
+            return int(args.func(args))
+        except BrokenPipeError:  # a reader such as `head` closed the pipe
+            import os
+
+            # Python flushes standard output at exit: point it at devnull.
+            os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
+            return 1
+        except (ValueError, TypeError, OSError, ImportError) as exc:
+            message = _cli_language(exc, getattr(args, "columns", None))
+            print(f"rmtclean {args.command}: error: {message}", file=sys.stderr)
+            return 1
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -1,10 +1,12 @@
 """Reading data tables and writing results safely.
 
 Tables are CSV or Parquet files with rows = observations and columns =
-variables, optionally with an index column (dates, sample names). Results
-are written atomically: to a temporary file in the target's folder, then
-moved over the target with :func:`os.replace`, so a failure never leaves a
-partial file behind.
+variables, optionally with an index column (dates, sample names); a CSV's
+delimiter (comma, semicolon, tab or bar) is read from its header line.
+Results are written atomically: to a temporary file in the target's folder,
+then moved over the target with :func:`os.replace`, so a failure never
+leaves a partial file behind. A new file gets the permissions the umask
+allows (as ``open`` would give it); a replaced file keeps its permissions.
 """
 
 from __future__ import annotations
@@ -20,6 +22,7 @@ __all__ = [
     "PRICE_RATIO_THRESHOLD",
     "TABLE_SUFFIXES",
     "atomic_path",
+    "date_like_labels",
     "looks_like_prices",
     "numeric_matrix",
     "prices_to_returns",
@@ -42,6 +45,8 @@ TABLE_SUFFIXES = {
 PRICE_RATIO_THRESHOLD = 0.2
 
 _MIN_ROWS_FOR_PRICE_CHECK = 10
+# Round-trip precision of written floats.
+_FLOAT_FORMAT = "%.17g"
 
 
 def _format(path: Path, what: str) -> str:
@@ -63,6 +68,61 @@ def _is_label_column(series) -> bool:
     return bool(series.notna().all() and series.is_unique)
 
 
+# Delimiters a CSV header is sniffed for, the comma first.
+_DELIMITERS = (",", ";", "\t", "|")
+
+
+def _sniff_csv(path: Path) -> dict:
+    """``sep`` and ``decimal`` of a delimited text file, read from its first lines.
+
+    The first of :data:`_DELIMITERS` in the header line is the delimiter; a
+    semicolon- (or tab-, bar-) separated file whose data lines hold commas
+    uses the decimal comma, as spreadsheets in many locales write them.
+    """
+    with open(path, encoding="utf-8", errors="replace", newline="") as handle:
+        lines = [handle.readline() for _ in range(6)]
+    header, body = lines[0], [line for line in lines[1:] if line.strip()]
+    sep = next((d for d in _DELIMITERS if d in header), ",")
+    decimal = "," if sep != "," and any("," in line for line in body) else "."
+    return {"sep": sep, "decimal": decimal}
+
+
+def date_like_labels(labels) -> int:
+    """How many of ``labels`` read as dates (``2021-01-06``, ``01/02/21``, ...).
+
+    Used to spot a table stored the wrong way round: dates as column names,
+    variables as rows.
+
+    Parameters
+    ----------
+    labels : iterable
+        Column names (strings, numbers or timestamps).
+
+    Returns
+    -------
+    int
+
+    Examples
+    --------
+    >>> from rmtclean.io import date_like_labels
+    >>> date_like_labels(["2021-01-06", "2021-01-07", "Food", "0.5"])
+    2
+    """
+    import warnings
+
+    import pandas as pd
+
+    labels = list(labels)
+    stamps = sum(isinstance(x, (pd.Timestamp, np.datetime64)) for x in labels)
+    texts = [x for x in labels if isinstance(x, str)]
+    if not texts:
+        return stamps
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore")
+        parsed = pd.to_datetime(pd.Series(texts), errors="coerce", format="mixed")
+    return stamps + int(parsed.notna().sum())
+
+
 def read_table(path, *, index_col="auto"):
     """Read a CSV, TSV, Parquet or ``.npy`` table into a DataFrame.
 
@@ -70,7 +130,10 @@ def read_table(path, *, index_col="auto"):
     ----------
     path : str or Path
         The file; its suffix (``.csv``, ``.txt``, ``.tsv``, ``.parquet``,
-        ``.pq``, ``.npy``) chooses the reader.
+        ``.pq``, ``.npy``) chooses the reader. A ``.csv`` or ``.txt`` file
+        may be separated by commas, semicolons, tabs or bars: the first of
+        these in the header line is the delimiter (with semicolons, tabs or
+        bars, commas in the data are decimal commas).
     index_col : "auto", int, str or None, default="auto"
         The column holding the row labels. ``"auto"`` takes the first column
         when it is not numeric and has unique, non-missing values (dates,
@@ -119,7 +182,8 @@ def read_table(path, *, index_col="auto"):
         if kind == "parquet":
             frame = pd.read_parquet(path)
         else:
-            frame = pd.read_csv(path, sep="\t" if kind == "tsv" else ",")
+            options = {"sep": "\t"} if kind == "tsv" else _sniff_csv(path)
+            frame = pd.read_csv(path, **options)
     except pd.errors.EmptyDataError:
         raise ValueError(f"The file {str(path)!r} has no data.") from None
     except pd.errors.ParserError as exc:  # ragged or truncated rows, bad quoting
@@ -334,12 +398,22 @@ def prices_to_returns(prices):
     return out
 
 
+def _umask() -> int:
+    # os.umask only reads the mask by setting it; set it straight back.
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
+
+
 @contextlib.contextmanager
 def atomic_path(path):
     """Yield a temporary path beside ``path``; on success move it over ``path``.
 
     The temporary file is in the same folder (so :func:`os.replace` is an
     atomic rename on POSIX and Windows) and is removed if the block raises.
+    Before the move it gets the permissions of the file it replaces, or
+    for a new file ``0o666`` less the umask, the mode ``open`` gives
+    (:func:`tempfile.mkstemp` creates it private, ``0o600``).
 
     Examples
     --------
@@ -360,6 +434,11 @@ def atomic_path(path):
     tmp = Path(tmp)
     try:
         yield tmp
+        try:
+            mode = path.stat().st_mode & 0o7777
+        except FileNotFoundError:
+            mode = 0o666 & ~_umask()
+        os.chmod(tmp, mode)
         os.replace(tmp, path)
     except BaseException:
         with contextlib.suppress(OSError):
@@ -376,7 +455,8 @@ def write_table(frame, path) -> Path:
         Written with its index as the first column (CSV) or as the index
         (Parquet); ``.npy`` keeps the values only.
     path : str or Path
-        ``.csv``, ``.txt``, ``.tsv``, ``.parquet``, ``.pq`` or ``.npy``.
+        ``.csv``, ``.txt``, ``.tsv``, ``.parquet``, ``.pq`` or ``.npy``;
+        ``"-"`` writes CSV to standard output.
 
     Returns
     -------
@@ -393,6 +473,12 @@ def write_table(frame, path) -> Path:
     >>> read_table(path).equals(frame)
     True
     """
+    if str(path) == "-":
+        import sys
+
+        frame.to_csv(sys.stdout, float_format=_FLOAT_FORMAT)
+        sys.stdout.flush()
+        return Path("-")
     path = Path(path)
     kind = _format(path, "write")
     with atomic_path(path) as tmp:
@@ -405,5 +491,7 @@ def write_table(frame, path) -> Path:
             except ImportError as exc:
                 raise OSError(f"Cannot write {str(path)!r}: {exc}") from exc
         else:
-            frame.to_csv(tmp, sep="\t" if kind == "tsv" else ",", float_format="%.17g")
+            frame.to_csv(
+                tmp, sep="\t" if kind == "tsv" else ",", float_format=_FLOAT_FORMAT
+            )
     return path

@@ -88,7 +88,7 @@ def test_report_figure(returns_csv, tmp_path, capsys):
     )
     assert code == 0, err
     assert fig.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
-    assert "not written" in stdout
+    assert "written to standard output" in err and CAUTION in err
 
 
 def test_prices_are_refused_or_converted(returns_csv, tmp_path, capsys):
@@ -238,7 +238,7 @@ def test_missing_values_and_half_life_options(returns_csv, tmp_path, capsys):
     )
     assert code == 0, err
     n_eff = effective_sample_size(exponential_weights(frame.shape[0], 30.0))
-    assert f"degrees of freedom: {n_eff - 1:.6g}" in stdout
+    assert f"degrees of freedom: {n_eff - 1:.6g}" in err
 
 
 def test_vol_half_life_option(returns_csv, tmp_path, capsys):

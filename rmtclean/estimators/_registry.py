@@ -1,21 +1,19 @@
 """The one list of rmtclean's cleaners, read by the CLI, the demo, bench and tests.
 
 Each entry gives a cleaner's class name, its short command-line name, the
-class and a one-line description. A new cleaner is one import and one
-:class:`CleanerEntry` line in :data:`CLEANERS`; nothing else in the package
-spells the estimator names.
+module that defines the class and a one-line description. A new cleaner is
+one :class:`CleanerEntry` line in :data:`CLEANERS` (and its name in the
+``__all__`` lists of :mod:`rmtclean` and :mod:`rmtclean.estimators`).
+
+The registry imports no estimator: the class is loaded on first use of
+:attr:`CleanerEntry.cls`, so ``rmtclean --help`` can list the cleaners
+without loading scikit-learn or the compiled kernels.
 """
 
 from __future__ import annotations
 
+import importlib
 from dataclasses import dataclass
-
-from rmtclean.estimators._clip import EigenClip
-from rmtclean.estimators._kernel import KernelShrink
-from rmtclean.estimators._linear import LinearShrink
-from rmtclean.estimators._spiked import SpikeShrink
-from rmtclean.estimators._split import SplitShrink
-from rmtclean.estimators._stieltjes import StieltjesShrink
 
 __all__ = ["CLEANERS", "CleanerEntry", "find_cleaner"]
 
@@ -31,13 +29,18 @@ class CleanerEntry:
         tables and reports.
     short : str
         The short command-line name, e.g. ``"kernel"``.
-    cls : type
-        The estimator class.
+    module : str
+        The module defining the class, e.g.
+        ``"rmtclean.estimators._kernel"``; :attr:`cls` imports it.
     description : str
         One line for ``--help`` and tables.
     aliases : tuple of str
         Further spellings :func:`find_cleaner` accepts, e.g.
         ``("ledoit-wolf",)``.
+    takes_missing : bool, default=True
+        Whether the class takes ``missing="pairwise"`` / ``"em"`` (it works
+        from a covariance estimate); False for cleaners that need the
+        complete data rows. The CLI offers ``--missing pairwise|em`` by it.
 
     Examples
     --------
@@ -49,9 +52,24 @@ class CleanerEntry:
 
     name: str
     short: str
-    cls: type
+    module: str
     description: str
     aliases: tuple[str, ...] = ()
+    takes_missing: bool = True
+
+    def __post_init__(self):
+        if not isinstance(self.module, str):
+            raise TypeError(
+                f"CleanerEntry({self.name!r}): the third field is the module "
+                "path of the class (e.g. 'rmtclean.estimators._kernel'), not the "
+                f"class; got {self.module!r}. The registry must not import the "
+                "estimators."
+            )
+
+    @property
+    def cls(self) -> type:
+        """The estimator class, imported on first use."""
+        return getattr(importlib.import_module(self.module), self.name)
 
     def spellings(self) -> tuple[str, ...]:
         """Every accepted spelling, lower-cased: name, short name, aliases."""
@@ -63,39 +81,41 @@ CLEANERS: tuple[CleanerEntry, ...] = (
     CleanerEntry(
         "EigenClip",
         "clip",
-        EigenClip,
+        "rmtclean.estimators._clip",
         "noise eigenvalues clipped to their mean (Laloux et al. 1999)",
     ),
     CleanerEntry(
         "LinearShrink",
         "linear",
-        LinearShrink,
+        "rmtclean.estimators._linear",
         "linear shrinkage to a target (Ledoit & Wolf 2004)",
         aliases=("ledoit-wolf",),
+        takes_missing=False,
     ),
     CleanerEntry(
         "KernelShrink",
         "kernel",
-        KernelShrink,
+        "rmtclean.estimators._kernel",
         "analytical nonlinear shrinkage (Ledoit & Wolf 2020)",
     ),
     CleanerEntry(
         "StieltjesShrink",
         "stieltjes",
-        StieltjesShrink,
+        "rmtclean.estimators._stieltjes",
         "rotationally invariant estimator (Bun et al. 2016)",
     ),
     CleanerEntry(
         "SpikeShrink",
         "spike",
-        SpikeShrink,
+        "rmtclean.estimators._spiked",
         "optimal shrinkage of the spikes (Donoho et al. 2018)",
     ),
     CleanerEntry(
         "SplitShrink",
         "split",
-        SplitShrink,
+        "rmtclean.estimators._split",
         "split-sample eigenvalues (Lam 2016)",
+        takes_missing=False,
     ),
 )
 
