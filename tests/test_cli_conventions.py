@@ -1,0 +1,358 @@
+"""Command-line conventions of ``rmtclean``: what a user of data tools expects.
+
+Start-up loads no numerical library, ``--version``, a default method, the
+matrix on standard output, files that honour the umask, one-line errors and
+warnings in the CLI's language (flags, column names), ``--missing`` for every
+method and ``analyze``, delimiter sniffing and a hint for transposed files.
+Data: Kenneth French's 49 industry daily returns (``industry_returns``, see
+tests/_opendata.py) where a real table matters, small seeded tables elsewhere.
+"""
+
+import io
+import os
+import stat
+import subprocess
+import sys
+
+import numpy as np
+import pandas as pd
+import pytest
+
+import rmtclean
+from rmtclean.cli import DEFAULT_METHOD, _cli_language, build_parser, main
+from rmtclean.estimators import CLEANERS, CleanerEntry, KernelShrink, find_cleaner
+from rmtclean.exceptions import InvalidParameterError
+from tests._opendata import industry_returns
+
+HEAVY = ("sklearn", "numba", "pandas", "matplotlib", "scipy")
+
+
+@pytest.fixture
+def returns_csv(tmp_path, rng):
+    T, N = 120, 8
+    factor = rng.standard_normal((T, 1))
+    values = 0.01 * (rng.standard_normal((T, N)) + 0.5 * factor)
+    idx = pd.date_range("2024-01-01", periods=T, freq="D", name="date")
+    frame = pd.DataFrame(values, index=idx, columns=[f"S{j}" for j in range(N)])
+    path = tmp_path / "returns.csv"
+    frame.to_csv(path)
+    return path, frame
+
+
+def _run(argv, capsys):
+    code = main([str(a) for a in argv])
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+def _warnings(err: str, command: str) -> list[str]:
+    return [
+        line
+        for line in err.splitlines()
+        if line.startswith(f"rmtclean {command}: warning: ")
+    ]
+
+
+# -- start-up -----------------------------------------------------------------
+@pytest.mark.parametrize("statement", ["import rmtclean", "import rmtclean.cli"])
+def test_import_loads_no_numerical_library(statement):
+    code = (
+        f"import sys; {statement}; from rmtclean.cli import build_parser; "
+        "build_parser(None); import rmtclean.estimators as e; e.CLEANERS; "
+        f"print(sorted(m for m in {HEAVY!r} if m in sys.modules))"
+    )
+    result = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True
+    )
+    assert result.stdout.strip() == "[]"
+
+
+def test_top_level_help_and_version_load_no_numerical_library():
+    code = (
+        "import sys\nfrom rmtclean.cli import main\n"
+        "for argv in (['--help'], ['--version']):\n"
+        "    try:\n        main(argv)\n    except SystemExit:\n        pass\n"
+        f"print(sorted(m for m in {HEAVY!r} if m in sys.modules), file=sys.stderr)"
+    )
+    result = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True
+    )
+    assert result.stderr.strip() == "[]"
+    assert f"rmtclean {rmtclean.__version__}" in result.stdout
+    assert "clean" in result.stdout and "analyze" in result.stdout
+
+
+def test_lazy_names_resolve_to_the_classes():
+    from rmtclean.estimators._kernel import KernelShrink as direct
+
+    assert rmtclean.KernelShrink is direct
+    assert set(rmtclean.__all__) <= set(dir(rmtclean))
+    for entry in CLEANERS:
+        assert getattr(rmtclean, entry.name) is entry.cls
+    with pytest.raises(AttributeError, match="no attribute 'Nope'"):
+        rmtclean.Nope  # noqa: B018
+
+
+def test_version(capsys):
+    with pytest.raises(SystemExit) as info:
+        main(["--version"])
+    assert info.value.code == 0
+    assert capsys.readouterr().out.strip() == f"rmtclean {rmtclean.__version__}"
+
+
+# -- the registry serves --method and --missing ---------------------------------
+def test_registry_takes_missing_matches_the_classes():
+    for entry in CLEANERS:
+        assert entry.takes_missing == ("missing" in entry.cls().get_params()), (
+            entry.name
+        )
+
+
+def test_registry_entry_takes_a_module_path_not_a_class():
+    with pytest.raises(TypeError, match="module path"):
+        CleanerEntry("KernelShrink", "kernel", KernelShrink, "text")
+
+
+def test_method_help_lists_short_names_and_the_default():
+    text = " ".join(
+        build_parser("clean")
+        ._subparsers._group_actions[0]
+        .choices["clean"]
+        .format_help()
+        .split()
+    )
+    for entry in CLEANERS:
+        assert f"{entry.short}: {entry.description}" in text
+    assert f"(default: {DEFAULT_METHOD})" in text
+
+
+def test_method_is_optional_and_defaults_to_kernel(returns_csv, tmp_path, capsys):
+    path, frame = returns_csv
+    out = tmp_path / "cov.csv"
+    code, stdout, err = _run(["clean", path, "--out", out], capsys)
+    assert code == 0, err
+    assert find_cleaner(DEFAULT_METHOD).cls is KernelShrink
+    ref = KernelShrink().fit(frame.to_numpy()).covariance_
+    np.testing.assert_allclose(pd.read_csv(out, index_col=0).to_numpy(), ref)
+    assert stdout.startswith("KernelShrink on ")
+
+
+# -- standard output ------------------------------------------------------------
+def test_clean_without_out_writes_csv_to_stdout(returns_csv, capsys):
+    path, frame = returns_csv
+    code, stdout, err = _run(["clean", path, "--method", "clip"], capsys)
+    assert code == 0, err
+    got = pd.read_csv(io.StringIO(stdout), index_col=0)
+    assert list(got.columns) == list(got.index) == list(frame.columns)
+    ref = find_cleaner("clip").cls().fit(frame.to_numpy()).covariance_
+    np.testing.assert_allclose(got.to_numpy(), ref, rtol=1e-14)
+    assert "written to standard output" in err and "Caution" in err
+
+
+def test_stdout_pipe_closed_early_is_not_a_traceback(returns_csv):
+    path, _ = returns_csv
+    proc = subprocess.Popen(
+        [sys.executable, "-m", "rmtclean.cli", "clean", str(path)],
+        stdout=subprocess.PIPE,
+        stderr=subprocess.PIPE,
+    )
+    proc.stdout.readline()
+    proc.stdout.close()  # as `| head -1` does
+    err = proc.stderr.read().decode()
+    proc.wait()
+    assert "Traceback" not in err
+
+
+# -- file permissions -------------------------------------------------------------
+@pytest.mark.skipif(os.name != "posix", reason="POSIX permission bits")
+@pytest.mark.parametrize("mask", [0o022, 0o027, 0o077])
+def test_written_files_honour_the_umask(returns_csv, tmp_path, capsys, mask):
+    path, _ = returns_csv
+    out, fig = tmp_path / "cov.csv", tmp_path / "fig.png"
+    old = os.umask(mask)
+    try:
+        code, _, err = _run(
+            ["clean", path, "--method", "clip", "--out", out, "--report", fig],
+            capsys,
+        )
+    finally:
+        os.umask(old)
+    assert code == 0, err
+    for target in (out, fig):
+        assert stat.S_IMODE(target.stat().st_mode) == 0o666 & ~mask
+
+
+@pytest.mark.skipif(os.name != "posix", reason="POSIX permission bits")
+def test_a_replaced_file_keeps_its_mode(returns_csv, tmp_path, capsys):
+    path, _ = returns_csv
+    out = tmp_path / "cov.csv"
+    out.write_text("previous")
+    out.chmod(0o640)
+    assert _run(["clean", path, "--out", out], capsys)[0] == 0
+    assert stat.S_IMODE(out.stat().st_mode) == 0o640
+    assert out.read_text() != "previous"
+
+
+# -- errors and warnings in the CLI's language ------------------------------
+def test_library_parameter_messages_become_flags():
+    from rmtclean.estimators import EigenClip
+
+    with pytest.raises(InvalidParameterError) as info:
+        EigenClip(half_life=-3.0).fit(np.eye(5))
+    text = _cli_language(info.value)
+    assert "half_life" not in text and text.startswith("--half-life must be")
+    assert _cli_language("KernelShrink.fit: missing='em' and half_life") == (
+        "--missing em and --half-life"
+    )
+
+
+def test_column_positions_become_names():
+    text = "1 column(s) have zero variance (first index 2); column 1 has 3 rows"
+    assert _cli_language(text, ["a", "b", "Const"]) == (
+        "1 column(s) have zero variance (first 'Const'); column 'b' has 3 rows"
+    )
+
+
+def test_bad_half_life_is_a_usage_error_naming_the_flag(returns_csv, capsys):
+    path, _ = returns_csv
+    with pytest.raises(SystemExit) as info:
+        main(["clean", str(path), "--half-life", "-3"])
+    assert info.value.code == 2
+    assert "argument --half-life: expected a positive number of rows" in (
+        capsys.readouterr().err
+    )
+
+
+def test_zero_variance_column_named_in_error_and_warning(returns_csv, tmp_path, capsys):
+    path, frame = returns_csv
+    const = frame.assign(Flat=0.0)
+    const_path = tmp_path / "const.csv"
+    const.to_csv(const_path)
+    code, _, err = _run(["analyze", const_path, "--standardize"], capsys)
+    assert code == 1
+    assert err.count("\n") == 1 and "'Flat'" in err and "--standardize" in err
+    assert "index" not in err
+    code, _, err = _run(["clean", const_path, "--out", tmp_path / "c.csv"], capsys)
+    assert code == 0, err
+    lines = _warnings(err, "clean")
+    assert lines and any("'Flat'" in line for line in lines)
+    # Warnings are single lines without Python's source-line echo.
+    assert "Warning:" not in err and "warnings.warn" not in err
+    assert len(lines) == len(set(lines))
+
+
+# -- --missing: one pre-step for every method and analyze ---------------------
+@pytest.fixture
+def holes_csv(tmp_path):
+    frame = industry_returns(last=250)
+    holes = frame.copy()
+    holes.iloc[::7, 3] = np.nan  # a seventh of one industry's days missing
+    path = tmp_path / "holes.csv"
+    holes.to_csv(path)
+    return path, holes
+
+
+def test_missing_values_are_refused_with_working_advice(holes_csv, capsys):
+    path, holes = holes_csv
+    column = repr(str(holes.columns[3]))
+    code, _, err = _run(["clean", path, "--method", "linear"], capsys)
+    assert code == 1 and column in err and "--missing drop" in err
+    assert "pairwise" not in err  # not offered where it would be refused
+    code, _, err = _run(["analyze", path], capsys)
+    assert code == 1 and "--missing drop, --missing pairwise or --missing em" in err
+
+
+@pytest.mark.parametrize("entry", CLEANERS, ids=[e.short for e in CLEANERS])
+def test_missing_drop_works_for_every_method(holes_csv, tmp_path, capsys, entry):
+    path, holes = holes_csv
+    out = tmp_path / "cov.csv"
+    argv = ["clean", path, "--method", entry.short, "--missing", "drop"]
+    code, _, err = _run([*argv, "--out", out], capsys)
+    assert code == 0, err
+    est = entry.cls()
+    if "random_state" in est.get_params():
+        est.set_params(random_state=0)
+    ref = est.fit(holes.dropna().to_numpy()).covariance_
+    np.testing.assert_allclose(pd.read_csv(out, index_col=0).to_numpy(), ref)
+    n_dropped = int(holes.isna().any(axis=1).sum())
+    assert any(f"dropped {n_dropped} of 250 rows" in w for w in _warnings(err, "clean"))
+
+
+def test_missing_pairwise_refused_up_front_for_cleaners_needing_rows(
+    holes_csv, tmp_path, capsys
+):
+    path, _ = holes_csv
+    for entry in CLEANERS:
+        out = tmp_path / f"{entry.short}.csv"
+        argv = ["clean", path, "--method", entry.short, "--missing", "em"]
+        code, _, err = _run([*argv, "--out", out], capsys)
+        if entry.takes_missing:
+            assert code == 0, err
+        else:
+            assert code == 1 and "--missing drop" in err and not out.exists()
+
+
+def test_analyze_with_missing_em(holes_csv, capsys):
+    import json
+
+    from rmtclean.missing import em_covariance
+
+    path, holes = holes_csv
+    code, stdout, err = _run(["analyze", path, "--missing", "em", "--json"], capsys)
+    assert code == 0, err
+    got = np.asarray(json.loads(stdout)["report"]["eigenvalues"])
+    # The EM estimate's eigenvalues, by numpy (the report keeps min(N, dof)).
+    ref = np.linalg.eigvalsh(em_covariance(holes.to_numpy()).covariance)[::-1]
+    np.testing.assert_allclose(got, ref[: got.size], rtol=1e-10)
+
+
+def test_missing_with_row_weights_is_refused_with_advice(holes_csv, capsys):
+    path, _ = holes_csv
+    code, _, err = _run(
+        ["clean", path, "--missing", "pairwise", "--half-life", "20"], capsys
+    )
+    assert code == 1 and "--half-life" in err and "--missing drop" in err
+
+
+# -- reading files as users write them --------------------------------------
+def test_semicolon_file_with_decimal_commas_reads_like_the_comma_file(tmp_path, capsys):
+    frame = industry_returns(last=60)
+    comma, semi = tmp_path / "comma.csv", tmp_path / "semi.csv"
+    frame.to_csv(comma)
+    frame.to_csv(semi, sep=";", decimal=",")
+    outs = []
+    for src in (comma, semi):
+        out = tmp_path / f"cov-{src.stem}.csv"
+        code, _, err = _run(["clean", src, "--method", "linear", "--out", out], capsys)
+        assert code == 0, err
+        outs.append(pd.read_csv(out, index_col=0))
+    pd.testing.assert_frame_equal(outs[0], outs[1])
+
+
+def test_transposed_file_gets_a_hint(tmp_path, capsys):
+    frame = industry_returns(last=60)
+    path = tmp_path / "wide.csv"
+    frame.T.to_csv(path)  # dates as columns
+    code, _, err = _run(["analyze", path], capsys)
+    assert code == 0, err
+    hints = _warnings(err, "analyze")
+    assert len(hints) == 1 and "60 of the 60 column names" in hints[0]
+    assert "transpose" in hints[0]
+    normal = tmp_path / "long.csv"
+    frame.to_csv(normal)
+    assert _warnings(_run(["analyze", normal], capsys)[2], "analyze") == []
+
+
+# -- help pages ---------------------------------------------------------------
+def _help(command: str) -> str:
+    sub = build_parser(command)._subparsers._group_actions[0]
+    return " ".join(sub.choices[command].format_help().split())
+
+
+def test_help_pages_show_defaults_and_speak_of_their_command():
+    demo = _help("demo")
+    for text in ("(default 300)", "(default 500)", "(default 7)"):
+        assert text in demo
+    bench = _help("bench")
+    assert bench.count("(default") >= 8
+    assert "clean it" not in _help("analyze")
