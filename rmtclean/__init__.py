@@ -6,8 +6,6 @@ estimators, scikit-learn and the compiled kernels are imported when first
 used.
 """
 
-import importlib
-
 __version__ = "0.1.0"
 
 __all__ = [
@@ -26,23 +24,26 @@ __all__ = [
     "sample_spectrum",
 ]
 
-# Where each public name lives; the estimators (every other name) live in
-# rmtclean.estimators.
-_HOMES = {
-    "CleanedEigenvalues": "rmtclean.rules",
-    "CleanedSpectrum": "rmtclean.spectrum",
-    "SampleSpectrum": "rmtclean.spectrum",
-    "SpectrumReport": "rmtclean.spectrum",
-    "analyze_spectrum": "rmtclean.spectrum",
-    "sample_spectrum": "rmtclean.spectrum",
+# The public names that do not live in rmtclean.estimators.
+_SPECTRUM = {
+    "CleanedSpectrum",
+    "SampleSpectrum",
+    "SpectrumReport",
+    "analyze_spectrum",
+    "sample_spectrum",
 }
 
 
 def __getattr__(name: str):
     if name not in __all__:
         raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
-    home = _HOMES.get(name, "rmtclean.estimators")
-    value = getattr(importlib.import_module(home), name)
+    if name in _SPECTRUM:
+        from rmtclean import spectrum as home
+    elif name == "CleanedEigenvalues":
+        from rmtclean import rules as home
+    else:
+        from rmtclean import estimators as home
+    value = getattr(home, name)
     globals()[name] = value
     return value
 

@@ -13,29 +13,22 @@ command's options are built only when that command runs.
 from __future__ import annotations
 
 import argparse
-import re
 import sys
-import warnings
 from pathlib import Path
 
 from rmtclean import __version__
+from rmtclean._cli_input import (
+    MIN_ROWS,
+    check_missing_option,
+    load_returns,
+    positive_rows,
+)
+from rmtclean._cli_messages import FLAGS, WarningLines, cli_language
 
-__all__ = ["DEFAULT_METHOD", "build_parser", "main"]
+__all__ = ["DEFAULT_METHOD", "MIN_ROWS", "build_parser", "main"]
 
-#: Fewest observations (after any price conversion) the data commands accept.
-MIN_ROWS = 3
 #: The cleaner ``rmtclean clean`` uses without ``--method``.
 DEFAULT_METHOD = "kernel"
-# Python parameter -> the flag that sets it, for messages.
-_FLAGS = {
-    "half_life": "--half-life",
-    "vol_half_life": "--vol-half-life",
-    "missing": "--missing",
-    "standardize": "--standardize",
-    "random_state": "--seed",
-}
-# Share of column names reading as dates above which a file looks transposed.
-_DATE_HEADER_SHARE = 0.8
 
 
 def _cmd_demo(args) -> int:
@@ -71,74 +64,6 @@ def _add_demo_arguments(demo) -> None:
 
 
 # -- messages -----------------------------------------------------------------
-def _warn(args, text: str) -> None:
-    """One ``rmtclean COMMAND: warning: ...`` line on standard error."""
-    print(f"rmtclean {args.command}: warning: {text}", file=sys.stderr)
-
-
-def _cli_language(message: str, columns=None) -> str:
-    """``message`` on one line, with flags for parameters and names for columns.
-
-    Library messages name Python parameters (``The 'half_life' parameter of
-    EigenClip``, ``missing='em'``) and 0-based column positions; the command
-    line knows flags and the file's column names.
-    """
-    text = " ".join(str(message).split())
-
-    def flag(match):
-        return _FLAGS.get(match.group(1), match.group(0))
-
-    text = re.sub(r"The '(\w+)' parameter of \w+(?:\.\w+)?", flag, text)
-    text = re.sub(r"^[A-Z]\w*\.fit: ", "", text)  # the method is on the command
-    text = re.sub(
-        r"\b(\w+)='([^']*)'",
-        lambda m: (
-            f"{_FLAGS[m.group(1)]} {m.group(2)}" if m.group(1) in _FLAGS else m.group(0)
-        ),
-        text,
-    )
-    text = re.sub(
-        r"\b(\w+)=True\b",
-        lambda m: _FLAGS.get(m.group(1), m.group(0)),
-        text,
-    )
-    text = re.sub(
-        r"(?<![-\w'])(half_life|vol_half_life)\b", lambda m: _FLAGS[m.group(1)], text
-    )
-    if columns is not None:
-        names = [str(c) for c in columns]
-
-        def name(match):
-            j = int(match.group(2))
-            return f"{match.group(1)}{names[j]!r}" if j < len(names) else match.group(0)
-
-        text = re.sub(r"(first )index (\d+)\b", name, text)
-        text = re.sub(r"(columns? )(\d+)\b", name, text)
-        text = re.sub(r"(\band )(\d+)(?= share\b)", name, text)
-    return text
-
-
-class _WarningLines(warnings.catch_warnings):
-    """Show each library warning once, as one line in the CLI's language."""
-
-    def __init__(self, args):
-        super().__init__()
-        self._args = args
-        self._seen = set()
-
-    def __enter__(self):
-        out = super().__enter__()
-        warnings.showwarning = self._show
-        return out
-
-    def _show(self, message, category, filename, lineno, file=None, line=None):
-        text = _cli_language(message, getattr(self._args, "columns", None))
-        if text not in self._seen:
-            self._seen.add(text)
-            _warn(self._args, text)
-
-
-# -- clean and analyze --------------------------------------------------------
 def _method_choices() -> str:
     """The registry's short names with their descriptions, on one line."""
     from rmtclean.estimators import CLEANERS
@@ -158,142 +83,6 @@ def _method_name(text: str) -> str:
         ) from None
 
 
-def _positive_rows(text: str) -> float:
-    try:
-        value = float(text)
-    except ValueError:
-        value = float("nan")
-    if not value > 0 or value == float("inf"):
-        raise argparse.ArgumentTypeError(
-            f"expected a positive number of rows, got {text!r}"
-        )
-    return value
-
-
-def _source(args) -> str:
-    return f"DATA {args.data!r}"
-
-
-def _hint_if_transposed(frame, args) -> None:
-    """Warn when the column names read as dates: rows should be the dates."""
-    from rmtclean.io import date_like_labels
-
-    n_dates = date_like_labels(frame.columns)
-    n_columns = frame.shape[1]
-    if n_columns >= 3 and n_dates >= _DATE_HEADER_SHARE * n_columns:
-        _warn(
-            args,
-            f"{n_dates} of the {n_columns} column names of {args.data} read as "
-            "dates: rows must be observations and columns variables; if the file "
-            "holds one variable per row, transpose it first.",
-        )
-
-
-def _load_returns(args):
-    """The returns table of ``args.data``: read, checked, prices handled."""
-    from rmtclean.io import (
-        looks_like_prices,
-        numeric_matrix,
-        prices_to_returns,
-        read_table,
-        successive_difference_ratio,
-    )
-
-    source = _source(args)
-    frame = read_table(args.data)
-    _hint_if_transposed(frame, args)
-    extra = 1 if args.from_prices else 0
-    frame = numeric_matrix(frame, min_rows=MIN_ROWS + extra, source=source)
-    constant = [str(c) for c in frame.columns[frame.nunique(dropna=True) <= 1]]
-    if constant and not args.standardize:
-        shown = ", ".join(repr(c) for c in constant[:3])
-        _warn(
-            args,
-            f"{len(constant)} column(s) of {args.data} are constant ({shown}"
-            f"{' ...' if len(constant) > 3 else ''}): they carry no covariance.",
-        )
-    if args.from_prices:
-        frame = prices_to_returns(frame)
-    elif not args.assume_returns and looks_like_prices(frame.to_numpy()):
-        import numpy as np
-
-        ratio = float(np.nanmedian(successive_difference_ratio(frame.to_numpy())))
-        raise ValueError(
-            f"{source} looks like prices, not returns: every value is positive "
-            f"and the columns move in small steps (median successive-difference "
-            f"ratio {ratio:.3g}, returns give about 1). Pass --from-prices to "
-            "convert to log returns, or --assume-returns to use them as they are."
-        )
-    return _handle_missing(frame, args)
-
-
-def _missing_choices(args) -> str:
-    """The ``--missing`` values that work for this command and method."""
-    from rmtclean.estimators import find_cleaner
-
-    method = getattr(args, "method", None)
-    if method is None or find_cleaner(method).takes_missing:
-        return "--missing drop, --missing pairwise or --missing em"
-    return "--missing drop"
-
-
-def _check_missing_option(args) -> None:
-    """Refuse, before reading anything, a --missing value the run cannot use."""
-    from rmtclean.estimators import CLEANERS, find_cleaner
-
-    if args.missing not in ("pairwise", "em"):
-        return
-    method = getattr(args, "method", None)
-    if method is not None and not find_cleaner(method).takes_missing:
-        entry = find_cleaner(method)
-        able = ", ".join(e.short for e in CLEANERS if e.takes_missing)
-        raise ValueError(
-            f"--missing {args.missing} needs a method that works from a "
-            f"covariance estimate ({able}); --method {entry.short} needs complete "
-            "rows: use --missing drop to drop the incomplete rows."
-        )
-    for name in ("half_life", "vol_half_life"):
-        if getattr(args, name, None) is not None:
-            raise ValueError(
-                f"--missing {args.missing} cannot weight rows ({_FLAGS[name]}); "
-                "use --missing drop to drop the incomplete rows."
-            )
-
-
-def _handle_missing(frame, args):
-    """The shared pre-step of clean and analyze for missing values (NaN).
-
-    Without ``--missing`` they are refused; ``drop`` drops incomplete rows
-    (every method); ``pairwise`` and ``em`` keep them for the estimate.
-    """
-    mask = frame.isna()
-    n_missing = int(mask.to_numpy().sum())
-    if not n_missing:
-        return frame
-    cols = [str(c) for c in frame.columns[mask.any(axis=0).to_numpy()]]
-    where = ", ".join(repr(c) for c in cols[:3]) + (" ..." if len(cols) > 3 else "")
-    if args.missing is None:
-        raise ValueError(
-            f"{_source(args)} has {n_missing} missing value(s) in {len(cols)} "
-            f"column(s) ({where}); pass {_missing_choices(args)}."
-        )
-    if args.missing == "drop":
-        kept = frame.dropna()
-        if kept.shape[0] < MIN_ROWS:
-            raise ValueError(
-                f"--missing drop leaves {kept.shape[0]} complete row(s) of "
-                f"{frame.shape[0]} in {_source(args)}; at least {MIN_ROWS} are "
-                "needed: try --missing pairwise or --missing em."
-            )
-        _warn(
-            args,
-            f"--missing drop: dropped {frame.shape[0] - kept.shape[0]} of "
-            f"{frame.shape[0]} rows with missing values ({where}).",
-        )
-        return kept
-    return frame
-
-
 def _build_estimator(args):
     from rmtclean.estimators import find_cleaner
 
@@ -311,7 +100,7 @@ def _build_estimator(args):
     for name, value in wanted.items():
         if name not in params and value not in (False, None):
             raise ValueError(
-                f"{_FLAGS[name]}: --method {find_cleaner(args.method).short} "
+                f"{FLAGS[name]}: --method {find_cleaner(args.method).short} "
                 "does not take it."
             )
     return est.set_params(**{k: v for k, v in wanted.items() if k in params})
@@ -353,8 +142,8 @@ def _cmd_clean(args) -> int:
     from rmtclean.demo import CAUTION
     from rmtclean.io import write_table
 
-    _check_missing_option(args)
-    frame = _load_returns(args)
+    check_missing_option(args)
+    frame = load_returns(args)
     args.columns = frame.columns
     est = _build_estimator(args).fit(frame)
     kind = args.kind or ("correlation" if args.standardize else "covariance")
@@ -404,8 +193,8 @@ def _cmd_analyze(args) -> int:
 
     from rmtclean.demo import CAUTION
 
-    _check_missing_option(args)
-    frame = _load_returns(args)
+    check_missing_option(args)
+    frame = load_returns(args)
     args.columns = frame.columns
     report = _spectrum_report(frame, args)
     if args.json:
@@ -495,14 +284,14 @@ def _add_clean_arguments(clean) -> None:
     clean.add_argument("--report", metavar="FILE.png", help="where to save the figure")
     clean.add_argument(
         "--half-life",
-        type=_positive_rows,
+        type=positive_rows,
         metavar="ROWS",
         help="weight rows exponentially (last row newest); the effective sample "
         "size replaces the number of rows",
     )
     clean.add_argument(
         "--vol-half-life",
-        type=_positive_rows,
+        type=positive_rows,
         metavar="ROWS",
         help="devolatilise each column by its causal EWMA volatility with this "
         "half-life (rows in time order), clean the correlation and scale it by "
@@ -791,7 +580,7 @@ def main(argv=None) -> int:
     if getattr(args, "func", None) is None:
         parser.print_help()
         return 2
-    with _WarningLines(args):
+    with WarningLines(args):
         try:
             return int(args.func(args))
         except BrokenPipeError:  # a reader such as `head` closed the pipe
@@ -801,7 +590,7 @@ def main(argv=None) -> int:
             os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
             return 1
         except (ValueError, TypeError, OSError, ImportError) as exc:
-            message = _cli_language(exc, getattr(args, "columns", None))
+            message = cli_language(exc, getattr(args, "columns", None))
             print(f"rmtclean {args.command}: error: {message}", file=sys.stderr)
             return 1
 

@@ -19,7 +19,8 @@ import pandas as pd
 import pytest
 
 import rmtclean
-from rmtclean.cli import DEFAULT_METHOD, _cli_language, build_parser, main
+from rmtclean._cli_messages import cli_language
+from rmtclean.cli import DEFAULT_METHOD, build_parser, main
 from rmtclean.estimators import CLEANERS, CleanerEntry, KernelShrink, find_cleaner
 from rmtclean.exceptions import InvalidParameterError
 from tests._opendata import industry_returns
@@ -199,16 +200,16 @@ def test_library_parameter_messages_become_flags():
 
     with pytest.raises(InvalidParameterError) as info:
         EigenClip(half_life=-3.0).fit(np.eye(5))
-    text = _cli_language(info.value)
+    text = cli_language(info.value)
     assert "half_life" not in text and text.startswith("--half-life must be")
-    assert _cli_language("KernelShrink.fit: missing='em' and half_life") == (
+    assert cli_language("KernelShrink.fit: missing='em' and half_life") == (
         "--missing em and --half-life"
     )
 
 
 def test_column_positions_become_names():
     text = "1 column(s) have zero variance (first index 2); column 1 has 3 rows"
-    assert _cli_language(text, ["a", "b", "Const"]) == (
+    assert cli_language(text, ["a", "b", "Const"]) == (
         "1 column(s) have zero variance (first 'Const'); column 'b' has 3 rows"
     )
 

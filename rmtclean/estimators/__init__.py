@@ -5,8 +5,6 @@ package, or reading :data:`CLEANERS`, does not import scikit-learn or the
 compiled kernels.
 """
 
-import importlib
-
 from rmtclean.estimators._registry import CLEANERS, CleanerEntry, find_cleaner
 
 __all__ = [
@@ -22,12 +20,10 @@ __all__ = [
     "find_cleaner",
 ]
 
-_BASE_MODULE = "rmtclean.estimators._base"
-
 
 def __getattr__(name: str):
     if name == "SpectralCovariance":
-        value = importlib.import_module(_BASE_MODULE).SpectralCovariance
+        from rmtclean.estimators._base import SpectralCovariance as value
     else:
         entry = next((e for e in CLEANERS if e.name == name), None)
         if entry is None:

@@ -1,0 +1,161 @@
+"""Reading the data of ``rmtclean clean`` and ``analyze``: the shared pre-steps.
+
+Read the table, hint at a transposed file, check the values are numeric,
+refuse or convert prices, and handle missing values (``--missing``) the same
+way for every method and for ``analyze``.
+"""
+
+from __future__ import annotations
+
+import argparse
+
+from rmtclean._cli_messages import FLAGS, warn
+
+__all__ = [
+    "MIN_ROWS",
+    "check_missing_option",
+    "load_returns",
+    "positive_rows",
+]
+
+#: Fewest observations (after any price conversion) the data commands accept.
+MIN_ROWS = 3
+# Share of column names reading as dates above which a file looks transposed.
+_DATE_HEADER_SHARE = 0.8
+
+
+def positive_rows(text: str) -> float:
+    """argparse type of ``--half-life``-like options: a positive number of rows."""
+    try:
+        value = float(text)
+    except ValueError:
+        value = float("nan")
+    if not value > 0 or value == float("inf"):
+        raise argparse.ArgumentTypeError(
+            f"expected a positive number of rows, got {text!r}"
+        )
+    return value
+
+
+def _source(args) -> str:
+    return f"DATA {args.data!r}"
+
+
+def _hint_if_transposed(frame, args) -> None:
+    """Warn when the column names read as dates: rows should be the dates."""
+    from rmtclean.io import date_like_labels
+
+    n_dates = date_like_labels(frame.columns)
+    n_columns = frame.shape[1]
+    if n_columns >= 3 and n_dates >= _DATE_HEADER_SHARE * n_columns:
+        warn(
+            args,
+            f"{n_dates} of the {n_columns} column names of {args.data} read as "
+            "dates: rows must be observations and columns variables; if the file "
+            "holds one variable per row, transpose it first.",
+        )
+
+
+def load_returns(args):
+    """The returns table of ``args.data``: read, checked, prices handled."""
+    from rmtclean.io import (
+        looks_like_prices,
+        numeric_matrix,
+        prices_to_returns,
+        read_table,
+        successive_difference_ratio,
+    )
+
+    source = _source(args)
+    frame = read_table(args.data)
+    _hint_if_transposed(frame, args)
+    extra = 1 if args.from_prices else 0
+    frame = numeric_matrix(frame, min_rows=MIN_ROWS + extra, source=source)
+    constant = [str(c) for c in frame.columns[frame.nunique(dropna=True) <= 1]]
+    if constant and not args.standardize:
+        shown = ", ".join(repr(c) for c in constant[:3])
+        warn(
+            args,
+            f"{len(constant)} column(s) of {args.data} are constant ({shown}"
+            f"{' ...' if len(constant) > 3 else ''}): they carry no covariance.",
+        )
+    if args.from_prices:
+        frame = prices_to_returns(frame)
+    elif not args.assume_returns and looks_like_prices(frame.to_numpy()):
+        import numpy as np
+
+        ratio = float(np.nanmedian(successive_difference_ratio(frame.to_numpy())))
+        raise ValueError(
+            f"{source} looks like prices, not returns: every value is positive "
+            f"and the columns move in small steps (median successive-difference "
+            f"ratio {ratio:.3g}, returns give about 1). Pass --from-prices to "
+            "convert to log returns, or --assume-returns to use them as they are."
+        )
+    return _handle_missing(frame, args)
+
+
+def _missing_choices(args) -> str:
+    """The ``--missing`` values that work for this command and method."""
+    from rmtclean.estimators import find_cleaner
+
+    method = getattr(args, "method", None)
+    if method is None or find_cleaner(method).takes_missing:
+        return "--missing drop, --missing pairwise or --missing em"
+    return "--missing drop"
+
+
+def check_missing_option(args) -> None:
+    """Refuse, before reading anything, a --missing value the run cannot use."""
+    from rmtclean.estimators import CLEANERS, find_cleaner
+
+    if args.missing not in ("pairwise", "em"):
+        return
+    method = getattr(args, "method", None)
+    if method is not None and not find_cleaner(method).takes_missing:
+        entry = find_cleaner(method)
+        able = ", ".join(e.short for e in CLEANERS if e.takes_missing)
+        raise ValueError(
+            f"--missing {args.missing} needs a method that works from a "
+            f"covariance estimate ({able}); --method {entry.short} needs complete "
+            "rows: use --missing drop to drop the incomplete rows."
+        )
+    for name in ("half_life", "vol_half_life"):
+        if getattr(args, name, None) is not None:
+            raise ValueError(
+                f"--missing {args.missing} cannot weight rows ({FLAGS[name]}); "
+                "use --missing drop to drop the incomplete rows."
+            )
+
+
+def _handle_missing(frame, args):
+    """The shared pre-step of clean and analyze for missing values (NaN).
+
+    Without ``--missing`` they are refused; ``drop`` drops incomplete rows
+    (every method); ``pairwise`` and ``em`` keep them for the estimate.
+    """
+    mask = frame.isna()
+    n_missing = int(mask.to_numpy().sum())
+    if not n_missing:
+        return frame
+    cols = [str(c) for c in frame.columns[mask.any(axis=0).to_numpy()]]
+    where = ", ".join(repr(c) for c in cols[:3]) + (" ..." if len(cols) > 3 else "")
+    if args.missing is None:
+        raise ValueError(
+            f"{_source(args)} has {n_missing} missing value(s) in {len(cols)} "
+            f"column(s) ({where}); pass {_missing_choices(args)}."
+        )
+    if args.missing == "drop":
+        kept = frame.dropna()
+        if kept.shape[0] < MIN_ROWS:
+            raise ValueError(
+                f"--missing drop leaves {kept.shape[0]} complete row(s) of "
+                f"{frame.shape[0]} in {_source(args)}; at least {MIN_ROWS} are "
+                "needed: try --missing pairwise or --missing em."
+            )
+        warn(
+            args,
+            f"--missing drop: dropped {frame.shape[0] - kept.shape[0]} of "
+            f"{frame.shape[0]} rows with missing values ({where}).",
+        )
+        return kept
+    return frame

@@ -1,0 +1,91 @@
+"""Messages of the ``rmtclean`` command: library words turned into the CLI's.
+
+Library errors and warnings name Python parameters (``The 'half_life'
+parameter of EigenClip``, ``missing='em'``) and 0-based column positions;
+the command line knows flags and the file's column names. Every warning
+becomes one line ``rmtclean COMMAND: warning: ...`` on standard error.
+"""
+
+from __future__ import annotations
+
+import re
+import sys
+import warnings
+
+__all__ = ["FLAGS", "WarningLines", "cli_language", "warn"]
+
+# Python parameter -> the flag that sets it, for messages.
+FLAGS = {
+    "half_life": "--half-life",
+    "vol_half_life": "--vol-half-life",
+    "missing": "--missing",
+    "standardize": "--standardize",
+    "random_state": "--seed",
+}
+
+
+def warn(args, text: str) -> None:
+    """One ``rmtclean COMMAND: warning: ...`` line on standard error."""
+    print(f"rmtclean {args.command}: warning: {text}", file=sys.stderr)
+
+
+def cli_language(message: str, columns=None) -> str:
+    """``message`` on one line, with flags for parameters and names for columns.
+
+    Library messages name Python parameters (``The 'half_life' parameter of
+    EigenClip``, ``missing='em'``) and 0-based column positions; the command
+    line knows flags and the file's column names.
+    """
+    text = " ".join(str(message).split())
+
+    def flag(match):
+        return FLAGS.get(match.group(1), match.group(0))
+
+    text = re.sub(r"The '(\w+)' parameter of \w+(?:\.\w+)?", flag, text)
+    text = re.sub(r"^[A-Z]\w*\.fit: ", "", text)  # the method is on the command
+    text = re.sub(
+        r"\b(\w+)='([^']*)'",
+        lambda m: (
+            f"{FLAGS[m.group(1)]} {m.group(2)}" if m.group(1) in FLAGS else m.group(0)
+        ),
+        text,
+    )
+    text = re.sub(
+        r"\b(\w+)=True\b",
+        lambda m: FLAGS.get(m.group(1), m.group(0)),
+        text,
+    )
+    text = re.sub(
+        r"(?<![-\w'])(half_life|vol_half_life)\b", lambda m: FLAGS[m.group(1)], text
+    )
+    if columns is not None:
+        names = [str(c) for c in columns]
+
+        def name(match):
+            j = int(match.group(2))
+            return f"{match.group(1)}{names[j]!r}" if j < len(names) else match.group(0)
+
+        text = re.sub(r"(first )index (\d+)\b", name, text)
+        text = re.sub(r"(columns? )(\d+)\b", name, text)
+        text = re.sub(r"(\band )(\d+)(?= share\b)", name, text)
+    return text
+
+
+class WarningLines(warnings.catch_warnings):
+    """Show each library warning once, as one line in the CLI's language."""
+
+    def __init__(self, args):
+        super().__init__()
+        self._args = args
+        self._seen = set()
+
+    def __enter__(self):
+        out = super().__enter__()
+        warnings.showwarning = self._show
+        return out
+
+    def _show(self, message, category, filename, lineno, file=None, line=None):
+        text = cli_language(message, getattr(self._args, "columns", None))
+        if text not in self._seen:
+            self._seen.add(text)
+            warn(self._args, text)
