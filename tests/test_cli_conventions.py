@@ -23,27 +23,13 @@ from rmtclean._cli_messages import cli_language
 from rmtclean.cli import DEFAULT_METHOD, build_parser, main
 from rmtclean.estimators import CLEANERS, CleanerEntry, KernelShrink, find_cleaner
 from rmtclean.exceptions import InvalidParameterError
+from tests import test_cli
 from tests._opendata import industry_returns
+from tests.test_cli import _run
 
+#: The table of tests/test_cli.py (120 seeded rows, 8 columns, dated index).
+returns_csv = test_cli.returns_csv
 HEAVY = ("sklearn", "numba", "pandas", "matplotlib", "scipy")
-
-
-@pytest.fixture
-def returns_csv(tmp_path, rng):
-    T, N = 120, 8
-    factor = rng.standard_normal((T, 1))
-    values = 0.01 * (rng.standard_normal((T, N)) + 0.5 * factor)
-    idx = pd.date_range("2024-01-01", periods=T, freq="D", name="date")
-    frame = pd.DataFrame(values, index=idx, columns=[f"S{j}" for j in range(N)])
-    path = tmp_path / "returns.csv"
-    frame.to_csv(path)
-    return path, frame
-
-
-def _run(argv, capsys):
-    code = main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    return code, out, err
 
 
 def _warnings(err: str, command: str) -> list[str]:
