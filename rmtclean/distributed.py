@@ -17,6 +17,8 @@ from rmtclean.spectrum._sample import (
     SampleSpectrum,
     column_scale,
     complete_basis,
+    dense_leading,
+    gram_leading,
     gram_pairs,
 )
 
@@ -57,6 +59,7 @@ def dask_sample_spectrum(
     standardize: bool = False,
     route: str = "auto",
     owner: str = "fit",
+    eigenvectors: str = "all",
 ) -> SampleSpectrum:
     """The :class:`~rmtclean.spectrum.SampleSpectrum` of a dask array.
 
@@ -68,9 +71,11 @@ def dask_sample_spectrum(
     Parameters
     ----------
     X : dask.array.Array of shape (n_samples, n_features)
-    assume_centered, sample_weight, standardize, route
+    assume_centered, sample_weight, standardize, route, eigenvectors
         As in :meth:`SampleSpectrum.from_data`; ``sample_weight`` may be a
-        numpy or dask array.
+        numpy or dask array. With ``eigenvectors="leading"`` the gram route
+        keeps the dask array to map the leading eigenvectors back (one more
+        pass over the data, for those only).
     owner : str
         Name used in error messages.
 
@@ -143,28 +148,39 @@ def dask_sample_spectrum(
     scatter = np.asarray(scatter)
     rank = max(1, min(n_features, n_positive - (0 if assume_centered else 1)))
     scale = None
+    leading = None
     if route == "dense":
         if standardize:
             scale = column_scale(np.diag(scatter).copy())
             scatter = scatter / np.outer(scale, scale)
-        vals, vecs = np.linalg.eigh(scatter)
-        vals = np.maximum(vals[::-1][:rank], 0.0)
-        vecs = vecs[:, ::-1][:, :rank]
+        if eigenvectors == "leading":
+            vals, leading = dense_leading(np.require(scatter, np.float64, "CW"))
+            vals, vecs = np.maximum(vals[:rank], 0.0), None
+        else:
+            vals, vecs = np.linalg.eigh(scatter)
+            vals = np.maximum(vals[::-1][:rank], 0.0)
+            vecs = np.ascontiguousarray(vecs[:, ::-1][:, :rank])
     else:
         if standardize:
             scale = column_scale(np.asarray((Z * Z).sum(axis=0).compute()))
             Z = Z / scale
             scatter = np.asarray((Z @ Z.T).compute())
-        vals, coef, tiny = gram_pairs(scatter, rank)
-        vecs = complete_basis(np.asarray((Z.T @ coef).compute()), tiny)
+        if eigenvectors == "leading":
+            vals, leading = gram_leading(Z, np.require(scatter, np.float64, "CW"), rank)
+            vecs = None
+        else:
+            vals, coef, tiny = gram_pairs(scatter, rank)
+            vecs = complete_basis(np.asarray((Z.T @ coef).compute()), tiny)
+            vecs = np.ascontiguousarray(vecs)
     return SampleSpectrum(
         eigenvalues=np.ascontiguousarray(vals),
-        eigenvectors=np.ascontiguousarray(vecs),
+        eigenvectors=vecs,
         n_samples=dof,
         n_features=n_features,
         location=location,
         scale=scale,
         route=route,
+        leading=leading,
     )
 
 

@@ -115,6 +115,9 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
     eigenvalues_ : ndarray of shape (n_features,)
         Cleaned eigenvalues, paired with ``sample_eigenvalues_``.
     eigenvectors_ : ndarray of shape (n_features, n_components)
+        The eigenvectors of ``spectrum_``: all sample eigenvectors, or, for a
+        cleaner that computes only the leading ones (EigenClip, SpikeShrink),
+        those whose cleaned value differs from the bulk value.
     n_signal_ : int or None
     scale_ : ndarray of shape (n_features,) or None
         The column scales restored: standard deviations with
@@ -162,6 +165,12 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
     # -- the seam ---------------------------------------------------------
     def _clean(self, spectrum: SampleSpectrum):  # pragma: no cover - abstract
         raise NotImplementedError
+
+    def _eigenvectors_needed(self) -> str:
+        """``"all"``, or ``"leading"`` for rules that read only eigenvalues and
+        leave a bulk of equal values: the fit then computes the eigenvectors
+        of the other eigenvalues only (:meth:`SampleSpectrum.cleaned`)."""
+        return "all"
 
     # -- fitting ----------------------------------------------------------
     def fit(self, X, y=None, sample_weight=None):
@@ -256,6 +265,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
             standardize=True,
             route=self.route,
             keep_samples=self._needs_samples,
+            eigenvectors=self._eigenvectors_needed(),
         )
         spectrum = replace(spectrum, location=location, scale=vol.forecast)
         return spectrum, vol.forecast
@@ -303,6 +313,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
             standardize=self.standardize,
             route=self.route,
             owner=f"{owner}.fit",
+            eigenvectors=self._eigenvectors_needed(),
         )
         self._warn_if_weak(spectrum)
         self.volatility_ = None
@@ -417,10 +428,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
                     f"{type(self).__name__}: the rule returned {values.shape} "
                     f"values for {spectrum.eigenvalues.shape} eigenvalues."
                 )
-            null = cleaned.null_value if spectrum.n_components < n_features else None
-            result = CleanedSpectrum(
-                spectrum.eigenvectors, values, null_value=null, scale=spectrum.scale
-            )
+            result = spectrum.cleaned(values, cleaned.null_value)
             n_signal = cleaned.n_signal
         else:  # pragma: no cover - programming error
             raise TypeError(f"_clean returned {type(cleaned).__name__}")

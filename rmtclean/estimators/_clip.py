@@ -29,6 +29,14 @@ _DOC = r"""Covariance with the noise eigenvalues clipped to their mean.
         Level of the Tracy-Widom tests (``edge="tracy-widom"`` only).
     n_keep : int or None, default=None
         Keep exactly the ``n_keep`` largest eigenvalues; overrides ``edge``.
+    eigen_solver : {"partial", "full"}, default="partial"
+        ``"partial"``: all eigenvalues from one reduction to tridiagonal form,
+        then eigenvectors only for the eigenvalues the rule moves off the
+        bulk value (``n_signal_`` of them), so ``eigenvectors_`` has that
+        many columns and ``spectrum_`` stores ``c I + V_k diag(d_k - c) V_k'``
+        (at N = 2000, T = 4000 the fit costs about half of ``np.cov`` plus
+        ``np.linalg.eigh``). ``"full"``: every eigenvector, as
+        ``numpy.linalg.eigh`` gives them; the same covariance to rounding.
 %(common)s
     Attributes
     ----------
@@ -46,8 +54,12 @@ _DOC = r"""Covariance with the noise eigenvalues clipped to their mean.
     eigenvalues_ : ndarray of shape (n_features,)
         The cleaned eigenvalues, paired with ``sample_eigenvalues_``: the
         ``n_signal_`` kept ones, then ``bulk_mean_``.
-    eigenvectors_ : ndarray of shape (n_features, n_components)
-        The sample eigenvectors.
+    eigenvectors_ : ndarray of shape (n_features, n_vectors)
+        The sample eigenvectors kept in ``spectrum_``: with
+        ``eigen_solver="partial"`` those of the eigenvalues whose cleaned
+        value differs from the bulk value (``n_vectors = n_signal_``; every
+        other direction has the bulk value); with ``"full"`` all
+        ``n_components`` of them.
     n_signal_ : int
         Number of eigenvalues kept.
     edge_ : float or str
@@ -92,6 +104,7 @@ class EigenClip(SpectralCovariance):
     __doc__ = _DOC.replace("%(common)s", common_params_doc().rstrip("\n"))
 
     _parameter_specs: dict = {
+        "eigen_solver": [Options({"partial", "full"})],
         "edge": [
             Options({"bulk-fit", "tracy-widom"}),
             Interval(float, 0.0, None, closed="left"),
@@ -114,6 +127,7 @@ class EigenClip(SpectralCovariance):
         half_life=None,
         missing="error",
         vol_half_life=None,
+        eigen_solver="partial",
     ):
         super().__init__(
             store_precision=store_precision,
@@ -125,9 +139,13 @@ class EigenClip(SpectralCovariance):
             missing=missing,
             vol_half_life=vol_half_life,
         )
+        self.eigen_solver = eigen_solver
         self.edge = edge
         self.alpha = alpha
         self.n_keep = n_keep
+
+    def _eigenvectors_needed(self) -> str:
+        return "leading" if self.eigen_solver == "partial" else "all"
 
     def _clean(self, spectrum: SampleSpectrum) -> CleanedEigenvalues:
         out = eigen_clip(

@@ -2,10 +2,14 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from collections.abc import Callable
+from dataclasses import dataclass, field
 
 import numpy as np
 import scipy.linalg
+
+from rmtclean.spectrum._cleaned import CleanedSpectrum
+from rmtclean.spectrum._partial import TridiagonalEigh
 
 __all__ = ["SampleSpectrum", "sample_spectrum"]
 
@@ -31,8 +35,10 @@ class SampleSpectrum:
         ``n_components = min(n_features, rank)`` with ``rank`` the number of
         rows with positive weight, less one after demeaning. The remaining
         ``n_features - n_components`` eigenvalues are zero.
-    eigenvectors : ndarray of shape (n_features, n_components)
-        Orthonormal eigenvectors, column ``k`` for ``eigenvalues[k]``.
+    eigenvectors : ndarray of shape (n_features, n_components) or None
+        Orthonormal eigenvectors, column ``k`` for ``eigenvalues[k]``;
+        ``None`` when they were deferred (``eigenvectors="leading"``):
+        :meth:`leading_eigenvectors` then computes the ones asked for.
     n_samples : float
         The degrees of freedom ``dof`` (the effective sample size every rule
         receives as ``n_samples``).
@@ -50,6 +56,9 @@ class SampleSpectrum:
         data themselves (sample splitting); ``None`` when not kept.
     weights : ndarray of shape (n_rows,) or None
         The frequency weights of ``samples``; ``None`` means all one.
+    leading : callable or None
+        ``leading(k)`` returns the eigenvectors of the ``k`` largest
+        eigenvalues, ``(n_features, k)``, when ``eigenvectors`` is ``None``.
 
     Examples
     --------
@@ -72,6 +81,7 @@ class SampleSpectrum:
     route: str = "dense"
     samples: np.ndarray | None = None
     weights: np.ndarray | None = None
+    leading: Callable[[int], np.ndarray] | None = field(default=None, repr=False)
 
     @property
     def n_components(self) -> int:
@@ -89,6 +99,41 @@ class SampleSpectrum:
         out[: self.n_components] = self.eigenvalues
         return out
 
+    def leading_eigenvectors(self, k: int) -> np.ndarray:
+        """Eigenvectors of the ``k`` largest eigenvalues, ``(n_features, k)``."""
+        if not 0 <= k <= self.n_components:
+            raise ValueError(f"k must be in [0, {self.n_components}]; got {k}.")
+        if self.eigenvectors is not None:
+            return self.eigenvectors[:, :k]
+        return self.leading(k)
+
+    def cleaned(self, values, null_value=None) -> CleanedSpectrum:
+        """The :class:`CleanedSpectrum` of cleaned eigenvalues ``values``.
+
+        ``values`` pairs with :attr:`eigenvalues`; ``null_value`` is the
+        value on the null space (``n_components < n_features``). With
+        deferred eigenvectors only the leading ones whose value differs from
+        the bulk value ``c`` (the null value, or the last value when there is
+        no null space) are computed: every other direction shares ``c``,
+        and the result is stored as ``c I + V_k diag(d_k - c) V_k'``. With
+        all eigenvectors at hand they are all kept, as before.
+        """
+        values = np.asarray(values, dtype=np.float64)
+        has_null = self.n_components < self.n_features
+        null = null_value if has_null else None
+        if self.eigenvectors is not None:
+            return CleanedSpectrum(
+                self.eigenvectors, values, null_value=null, scale=self.scale
+            )
+        bulk = float(values[-1]) if null is None else float(null)
+        k = n_moved(values, bulk)
+        return CleanedSpectrum(
+            self.leading_eigenvectors(k),
+            values[:k],
+            null_value=bulk if k < self.n_features else None,
+            scale=self.scale,
+        )
+
     @classmethod
     def from_data(
         cls,
@@ -99,6 +144,7 @@ class SampleSpectrum:
         standardize: bool = False,
         route: str = "auto",
         keep_samples: bool = False,
+        eigenvectors: str = "all",
     ) -> SampleSpectrum:
         """Decompose the sample covariance of ``X`` (rows are observations).
 
@@ -124,6 +170,14 @@ class SampleSpectrum:
             :data:`DENSE_LIMIT`.
         keep_samples : bool, default=False
             Keep the centred rows in ``samples``.
+        eigenvectors : {"all", "leading"}, default="all"
+            ``"all"`` computes every eigenvector (LAPACK ``syevd`` through
+            ``numpy.linalg.eigh``). ``"leading"`` computes the eigenvalues
+            from one reduction to tridiagonal form and defers the
+            eigenvectors: ``eigenvectors`` is ``None`` and
+            :meth:`leading_eigenvectors` (or :meth:`cleaned`) computes the
+            leading ones from the kept reduction (see
+            :class:`rmtclean.spectrum._partial.TridiagonalEigh`).
         """
         X = np.asarray(X, dtype=np.float64)
         n_rows, n_features = X.shape
@@ -159,6 +213,11 @@ class SampleSpectrum:
                 "route must be one of 'auto', 'dense' or 'gram'. "
                 f"Got {route!r} instead."
             )
+        if eigenvectors not in ("all", "leading"):
+            raise ValueError(
+                "eigenvectors must be 'all' or 'leading'. "
+                f"Got {eigenvectors!r} instead."
+            )
         scale = None
         if route == "dense" and probs is None:
             # No scaled T x N copy: Xc' Xc (BLAS syrk: numpy passes a matrix
@@ -181,17 +240,26 @@ class SampleSpectrum:
             Xc = Xc / scale
         elif keep_samples and Xc is X:
             Xc = X.copy()
-        if route == "dense":
+        leading = None
+        if eigenvectors == "leading":
+            if route == "dense":
+                vals, leading = dense_leading(cov)
+            else:
+                vals, leading = gram_leading(Z, Z @ Z.T, rank)
+            vals, vecs = vals[:rank], None
+            del cov
+        elif route == "dense":
             vals, vecs = np.linalg.eigh(cov)
             del cov
             vals = vals[::-1][:rank]
-            vecs = vecs[:, ::-1][:, :rank]
+            vecs = np.ascontiguousarray(vecs[:, ::-1][:, :rank])
         else:
             vals, vecs = _gram_eigh(Z, rank)
+            vecs = np.ascontiguousarray(vecs)
         vals = np.maximum(vals, 0.0)
         return cls(
             eigenvalues=np.ascontiguousarray(vals),
-            eigenvectors=np.ascontiguousarray(vecs),
+            eigenvectors=vecs,
             n_samples=dof,
             n_features=n_features,
             location=location,
@@ -199,7 +267,40 @@ class SampleSpectrum:
             route=route,
             samples=Xc if keep_samples else None,
             weights=None if sample_weight is None else np.asarray(sample_weight, float),
+            leading=leading,
         )
+
+
+def n_moved(values: np.ndarray, bulk: float) -> int:
+    """One past the last index whose value differs from ``bulk`` (0 if none)."""
+    moved = np.flatnonzero(values != bulk)
+    return int(moved[-1]) + 1 if moved.size else 0
+
+
+def dense_leading(cov: np.ndarray):
+    """Descending eigenvalues of ``cov`` and a function for its leading vectors.
+
+    ``cov`` is overwritten by the reflectors of its tridiagonal reduction.
+    """
+    reduction = TridiagonalEigh(cov, overwrite=True)
+    return reduction.eigenvalues, reduction.leading
+
+
+def gram_leading(Z, gram: np.ndarray, rank: int):
+    """As :func:`dense_leading` for ``Z' Z`` through its Gram matrix ``Z Z'``.
+
+    The eigenvectors of the ``k`` largest are ``Z' U_k / sqrt(vals_k)``,
+    completed to an orthonormal basis as :func:`complete_basis` does; ``Z``
+    (numpy or dask) is kept for that product. ``gram`` is overwritten.
+    """
+    reduction = TridiagonalEigh(gram, overwrite=True)
+    vals = np.maximum(reduction.eigenvalues[:rank], 0.0)
+
+    def leading(k: int) -> np.ndarray:
+        coef, tiny = _gram_coefficients(reduction.leading(k), vals[:k], vals[0])
+        return complete_basis(np.asarray(Z.T @ coef), tiny)
+
+    return vals, leading
 
 
 def column_scale(var: np.ndarray, needed_by: str = "standardize=True") -> np.ndarray:
@@ -235,9 +336,15 @@ def gram_pairs(gram: np.ndarray, rank: int):
     """
     vals, U = np.linalg.eigh(gram)
     vals = np.maximum(vals[::-1][:rank], 0.0)
-    U = U[:, ::-1][:, :rank]
-    tiny = vals <= vals[0] * 1e-10 if vals[0] > 0 else np.ones(rank, bool)
-    return vals, U / np.sqrt(np.where(tiny, 1.0, vals)), tiny
+    coef, tiny = _gram_coefficients(U[:, ::-1][:, :rank], vals, vals[0])
+    return vals, coef, tiny
+
+
+def _gram_coefficients(U, vals, top):
+    """``U / sqrt(vals)`` and the mask of numerically zero ``vals`` (relative
+    to the largest eigenvalue ``top``), whose columns are left as they are."""
+    tiny = vals <= top * 1e-10 if top > 0 else np.ones(vals.size, bool)
+    return U / np.sqrt(np.where(tiny, 1.0, vals)), tiny
 
 
 def complete_basis(vecs: np.ndarray, tiny: np.ndarray) -> np.ndarray:

@@ -1,0 +1,141 @@
+"""Cleaners whose bulk is one value: eigenvectors for the top of the spectrum only.
+
+EigenClip and SpikeShrink give every bulk eigenvalue one value, so the
+cleaned matrix ``c I + V_k diag(d_k - c) V_k'`` needs the eigenvectors of
+the ``k`` signal eigenvalues only. This script times, interleaved and
+repeated, at one N and T:
+
+- the reference ``np.cov`` + ``np.linalg.eigh`` (all eigenvectors);
+- ``fit`` of EigenClip and SpikeShrink with ``eigen_solver="partial"`` (the
+  default: one reduction to tridiagonal form, all eigenvalues, the top
+  eigenvectors back-transformed) and ``"full"`` (every eigenvector);
+- the eigen-solvers alone on the sample covariance, for the top ``k``
+  eigenvectors and all eigenvalues: one ``dsytrd`` + ``dsterf`` + selected
+  vectors of the tridiagonal matrix + ``dormqr`` back-transformation
+  (rmtclean's TridiagonalEigh), against ``scipy.linalg.eigh`` called twice
+  (``eigvals_only`` for all eigenvalues, then ``subset_by_index`` with the
+  ``evr`` or ``evx`` driver: two reductions), and ``np.linalg.eigh``.
+
+Run::
+
+    python benchmarks/bench_topk.py --threads 1
+    python benchmarks/bench_topk.py --threads 2 --n-features 2000 --n-samples 4000
+
+It prints the BLAS/thread setup first, then medians and ratios to the
+reference. The data have ``--spikes`` planted signal directions (variances
+from 6 down to 3, noise variance 1), so the rules keep about that many.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import platform
+import time
+
+import numpy as np
+import scipy
+import scipy.linalg
+from threadpoolctl import threadpool_info, threadpool_limits
+
+import rmtclean
+from rmtclean import EigenClip, SpikeShrink
+from rmtclean.spectrum._partial import TridiagonalEigh
+
+
+def print_environment() -> None:
+    print(
+        f"python {platform.python_version()}  numpy {np.__version__}  scipy "
+        f"{scipy.__version__}  rmtclean {rmtclean.__version__}"
+    )
+    print(f"machine {platform.machine()}, os.cpu_count() = {os.cpu_count()}")
+    for pool in threadpool_info():
+        print(
+            f"  threadpool {pool['user_api']}/{pool['internal_api']}: "
+            f"{pool['num_threads']} threads, {pool.get('architecture', '')} "
+            f"{pool.get('version', '')}  {os.path.basename(pool['filepath'])}"
+        )
+    print()
+
+
+def spiked(rng, n_samples: int, n_features: int, n_spikes: int) -> np.ndarray:
+    sd = np.ones(n_features)
+    sd[:n_spikes] = np.sqrt(np.linspace(6.0, 3.0, n_spikes))
+    return rng.standard_normal((n_samples, n_features)) * sd
+
+
+def reference(X):
+    return np.linalg.eigh(np.cov(X, rowvar=False))
+
+
+def tridiagonal_top(S, k):
+    eig = TridiagonalEigh(S)
+    return eig.eigenvalues, eig.leading(k)
+
+
+def scipy_twice(S, k, driver):
+    n = S.shape[0]
+    vals = scipy.linalg.eigh(S, eigvals_only=True, check_finite=False)
+    _, vecs = scipy.linalg.eigh(
+        S, subset_by_index=(n - k, n - 1), driver=driver, check_finite=False
+    )
+    return vals, vecs
+
+
+def timed(calls: dict, repeats: int) -> dict:
+    """Median wall time of each call, runs interleaved with the order rotated."""
+    names = list(calls)
+    times = {name: [] for name in names}
+    for rep in range(repeats):
+        shift = rep % len(names)
+        for name in names[shift:] + names[:shift]:
+            start = time.perf_counter()
+            calls[name]()
+            times[name].append(time.perf_counter() - start)
+    return {name: float(np.median(t)) for name, t in times.items()}
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--n-features", type=int, default=2000)
+    parser.add_argument("--n-samples", type=int, default=4000)
+    parser.add_argument("--spikes", type=int, default=10)
+    parser.add_argument("--repeats", type=int, default=5, help="timed runs each")
+    parser.add_argument("--seed", type=int, default=0)
+    parser.add_argument(
+        "--threads", type=int, default=None, help="limit BLAS/OpenMP threads"
+    )
+    args = parser.parse_args(argv)
+    with threadpool_limits(limits=args.threads):
+        print_environment()
+        rng = np.random.default_rng(args.seed)
+        for make in (EigenClip, SpikeShrink):  # warm the JIT and caches
+            make().fit(spiked(rng, 80, 40, 3))
+        X = spiked(rng, args.n_samples, args.n_features, args.spikes)
+        S = np.cov(X, rowvar=False)
+        k = EigenClip().fit(X).n_signal_
+        n, t = args.n_features, args.n_samples
+        print(f"N = {n}, T = {t}, {args.spikes} planted spikes, EigenClip keeps {k}")
+        calls = {
+            "np.cov + np.linalg.eigh": lambda: reference(X),
+            "EigenClip partial": lambda: EigenClip().fit(X),
+            "EigenClip full": lambda: EigenClip(eigen_solver="full").fit(X),
+            "SpikeShrink partial": lambda: SpikeShrink().fit(X),
+            "SpikeShrink full": lambda: SpikeShrink(eigen_solver="full").fit(X),
+            "np.linalg.eigh (S)": lambda: np.linalg.eigh(S),
+            "eigvalsh (S)": lambda: scipy.linalg.eigh(S, eigvals_only=True),
+            "sytrd+sterf+top k+ormqr": lambda: tridiagonal_top(S, k),
+            "eigh twice, evr": lambda: scipy_twice(S, k, "evr"),
+            "eigh twice, evx": lambda: scipy_twice(S, k, "evx"),
+        }
+        med = timed(calls, args.repeats)
+        ref = med["np.cov + np.linalg.eigh"]
+        print(f"  {'':<26}{'median s':>10}{'/ reference':>13}")
+        for name, value in med.items():
+            print(f"  {name:<26}{value:>10.3f}{value / ref:>13.2f}")
+        print()
+    return 0
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())
