@@ -29,33 +29,21 @@ from 6 down to 3, noise variance 1), so the rules keep about that many.
 from __future__ import annotations
 
 import argparse
-import os
-import platform
+import sys
 import time
+from pathlib import Path
 
 import numpy as np
 import scipy
 import scipy.linalg
-from threadpoolctl import threadpool_info, threadpool_limits
+from threadpoolctl import threadpool_limits
 
-import rmtclean
-from rmtclean import EigenClip, SpikeShrink
-from rmtclean.spectrum._partial import TridiagonalEigh
+sys.path.insert(0, str(Path(__file__).resolve().parent))
 
+from bench_speed import print_environment  # noqa: E402
 
-def print_environment() -> None:
-    print(
-        f"python {platform.python_version()}  numpy {np.__version__}  scipy "
-        f"{scipy.__version__}  rmtclean {rmtclean.__version__}"
-    )
-    print(f"machine {platform.machine()}, os.cpu_count() = {os.cpu_count()}")
-    for pool in threadpool_info():
-        print(
-            f"  threadpool {pool['user_api']}/{pool['internal_api']}: "
-            f"{pool['num_threads']} threads, {pool.get('architecture', '')} "
-            f"{pool.get('version', '')}  {os.path.basename(pool['filepath'])}"
-        )
-    print()
+from rmtclean import EigenClip, SpikeShrink  # noqa: E402
+from rmtclean.spectrum._partial import TridiagonalEigh  # noqa: E402
 
 
 def spiked(rng, n_samples: int, n_features: int, n_spikes: int) -> np.ndarray:

@@ -108,7 +108,9 @@ def test_partial_equals_full(rng, cls, params, options, shape):
 def test_partial_with_weights_and_half_life(rng):
     X = _spiked(rng, 120, 30)
     w = rng.integers(0, 4, size=120).astype(float)
-    for kwargs, fit in [({}, {"sample_weight": w}), ({"half_life": 40.0}, {})]:
+    options = [({}, {"sample_weight": w}), ({"half_life": 40.0}, {})]
+    options.append(({"vol_half_life": 20.0}, {}))
+    for kwargs, fit in options:
         part = EigenClip(**kwargs).fit(X, **fit)
         full = EigenClip(eigen_solver="full", **kwargs).fit(X, **fit)
         assert _rel(part.covariance_, full.covariance_) < 1e-10

@@ -225,6 +225,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
                 standardize=self.standardize,
                 route=self.route,
                 keep_samples=self._needs_samples,
+                eigenvectors=self._eigenvectors_needed(),
             )
         self._warn_if_weak(spectrum)
         self._store(spectrum, self._clean(spectrum), X.dtype)

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from rmtclean._validation import Interval, Options
 from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.estimators._bulkvalue import OneBulkValue
 from rmtclean.rules._clipping import eigen_clip
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import SampleSpectrum
@@ -29,14 +30,7 @@ _DOC = r"""Covariance with the noise eigenvalues clipped to their mean.
         Level of the Tracy-Widom tests (``edge="tracy-widom"`` only).
     n_keep : int or None, default=None
         Keep exactly the ``n_keep`` largest eigenvalues; overrides ``edge``.
-    eigen_solver : {"partial", "full"}, default="partial"
-        ``"partial"``: all eigenvalues from one reduction to tridiagonal form,
-        then eigenvectors only for the eigenvalues the rule moves off the
-        bulk value (``n_signal_`` of them), so ``eigenvectors_`` has that
-        many columns and ``spectrum_`` stores ``c I + V_k diag(d_k - c) V_k'``
-        (at N = 2000, T = 4000 the fit costs about half of ``np.cov`` plus
-        ``np.linalg.eigh``). ``"full"``: every eigenvector, as
-        ``numpy.linalg.eigh`` gives them; the same covariance to rounding.
+%(eigen_solver)s
 %(common)s
     Attributes
     ----------
@@ -54,12 +48,7 @@ _DOC = r"""Covariance with the noise eigenvalues clipped to their mean.
     eigenvalues_ : ndarray of shape (n_features,)
         The cleaned eigenvalues, paired with ``sample_eigenvalues_``: the
         ``n_signal_`` kept ones, then ``bulk_mean_``.
-    eigenvectors_ : ndarray of shape (n_features, n_vectors)
-        The sample eigenvectors kept in ``spectrum_``: with
-        ``eigen_solver="partial"`` those of the eigenvalues whose cleaned
-        value differs from the bulk value (``n_vectors = n_signal_``; every
-        other direction has the bulk value); with ``"full"`` all
-        ``n_components`` of them.
+%(eigenvectors)s
     n_signal_ : int
         Number of eigenvalues kept.
     edge_ : float or str
@@ -100,11 +89,13 @@ _DOC = r"""Covariance with the noise eigenvalues clipped to their mean.
     """
 
 
-class EigenClip(SpectralCovariance):
-    __doc__ = _DOC.replace("%(common)s", common_params_doc().rstrip("\n"))
+class EigenClip(OneBulkValue, SpectralCovariance):
+    __doc__ = OneBulkValue.fill_doc(
+        _DOC.replace("%(common)s", common_params_doc().rstrip("\n"))
+    )
 
     _parameter_specs: dict = {
-        "eigen_solver": [Options({"partial", "full"})],
+        **OneBulkValue._eigen_solver_spec,
         "edge": [
             Options({"bulk-fit", "tracy-widom"}),
             Interval(float, 0.0, None, closed="left"),
@@ -143,9 +134,6 @@ class EigenClip(SpectralCovariance):
         self.edge = edge
         self.alpha = alpha
         self.n_keep = n_keep
-
-    def _eigenvectors_needed(self) -> str:
-        return "leading" if self.eigen_solver == "partial" else "all"
 
     def _clean(self, spectrum: SampleSpectrum) -> CleanedEigenvalues:
         out = eigen_clip(

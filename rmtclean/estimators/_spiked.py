@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from rmtclean._validation import Interval, Options
 from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.estimators._bulkvalue import OneBulkValue
 from rmtclean.rules._spiked import SPIKE_SHRINKERS, spike_shrink
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import SampleSpectrum
@@ -36,14 +37,7 @@ _DOC = r"""Optimal eigenvalue shrinkage in the spiked covariance model.
         Marchenko-Pastur law to the bulk (:func:`rmtclean.spectrum.fit_bulk`,
         the separated eigenvalues set aside), ``"median"`` uses median
         matching alone (see :func:`rmtclean.rules.spike_shrink`).
-    eigen_solver : {"partial", "full"}, default="partial"
-        ``"partial"``: all eigenvalues from one reduction to tridiagonal form,
-        then eigenvectors only for the eigenvalues the rule moves off the
-        bulk value (``n_signal_`` of them), so ``eigenvectors_`` has that
-        many columns and ``spectrum_`` stores ``c I + V_k diag(d_k - c) V_k'``
-        (at N = 2000, T = 4000 the fit costs about half of ``np.cov`` plus
-        ``np.linalg.eigh``). ``"full"``: every eigenvector, as
-        ``numpy.linalg.eigh`` gives them; the same covariance to rounding.
+%(eigen_solver)s
 %(common)s
     Attributes
     ----------
@@ -61,12 +55,7 @@ _DOC = r"""Optimal eigenvalue shrinkage in the spiked covariance model.
     eigenvalues_ : ndarray of shape (n_features,)
         The cleaned eigenvalues, paired with ``sample_eigenvalues_``: the
         shrunk spikes first, then ``noise_variance_``.
-    eigenvectors_ : ndarray of shape (n_features, n_vectors)
-        The sample eigenvectors kept in ``spectrum_``: with
-        ``eigen_solver="partial"`` those of the eigenvalues whose cleaned
-        value differs from the bulk value (``n_vectors = n_signal_``; every
-        other direction has the bulk value); with ``"full"`` all
-        ``n_components`` of them.
+%(eigenvectors)s
     n_signal_ : int
         Number of sample eigenvalues above the bulk edge.
     noise_variance_ : float
@@ -115,11 +104,13 @@ _DOC = r"""Optimal eigenvalue shrinkage in the spiked covariance model.
     """
 
 
-class SpikeShrink(SpectralCovariance):
-    __doc__ = _DOC.replace("%(common)s", common_params_doc().rstrip("\n"))
+class SpikeShrink(OneBulkValue, SpectralCovariance):
+    __doc__ = OneBulkValue.fill_doc(
+        _DOC.replace("%(common)s", common_params_doc().rstrip("\n"))
+    )
 
     _parameter_specs: dict = {
-        "eigen_solver": [Options({"partial", "full"})],
+        **OneBulkValue._eigen_solver_spec,
         "loss": [Options(SPIKE_SHRINKERS)],
         "noise_variance": [
             None,
@@ -156,9 +147,6 @@ class SpikeShrink(SpectralCovariance):
         self.eigen_solver = eigen_solver
         self.loss = loss
         self.noise_variance = noise_variance
-
-    def _eigenvectors_needed(self) -> str:
-        return "leading" if self.eigen_solver == "partial" else "all"
 
     def _clean(self, spectrum: SampleSpectrum) -> CleanedEigenvalues:
         out = spike_shrink(
