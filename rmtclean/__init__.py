@@ -20,6 +20,7 @@ __all__ = [
     "SpikeShrink",
     "SplitShrink",
     "StieltjesShrink",
+    "TylerShrink",
     "analyze_spectrum",
     "sample_spectrum",
 ]

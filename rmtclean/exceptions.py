@@ -1,6 +1,11 @@
 """Warning and error classes of rmtclean."""
 
-__all__ = ["InvalidParameterError", "RankDeficientWarning", "WeakEstimateWarning"]
+__all__ = [
+    "InvalidParameterError",
+    "NotConvergedWarning",
+    "RankDeficientWarning",
+    "WeakEstimateWarning",
+]
 
 
 class WeakEstimateWarning(UserWarning):
@@ -9,6 +14,10 @@ class WeakEstimateWarning(UserWarning):
 
 class RankDeficientWarning(UserWarning):
     """The data are rank deficient beyond what the sample size explains."""
+
+
+class NotConvergedWarning(UserWarning):
+    """An iteration stopped at its limit before reaching its tolerance."""
 
 
 class InvalidParameterError(ValueError, TypeError):

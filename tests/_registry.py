@@ -9,8 +9,11 @@ non-rotation-invariant targets of LinearShrink).
 
 What each case promises is read from its documentation:
 
-- ``rotation_invariant``: the cleaner keeps the sample eigenvectors (DESIGN.md:
-  every rmtclean cleaner except LinearShrink with a non-identity target).
+- ``rotation_invariant``: rotating the data rotates the estimate: the cleaner
+  keeps the sample eigenvectors (DESIGN.md: every rmtclean cleaner except
+  LinearShrink with a non-identity target), or, TylerShrink, works on the
+  row directions with an identity target (spatial signs and Tyler's fixed
+  point are orthogonally equivariant, Tyler 1987, from memory).
 - ``semidefinite``: positive semi-definite only, where the docs say why
   (SplitShrink: "p.s.d. (p.d. when S2 is)", rules/_split.py; LinearShrink
   with intensity 0 is the sample covariance itself).
@@ -51,6 +54,7 @@ from rmtclean.estimators import (
     LinearShrink,
     SpectralCovariance,
     SplitShrink,
+    TylerShrink,
 )
 
 __all__ = [
@@ -134,8 +138,11 @@ _KNOWN = {
     SplitShrink: {"semidefinite": True, "min_rows": 8, "closed_form": True},
     EigenClip: {"trace_preserving": True},
     KernelShrink: {"min_dof_wide": 12},
+    # The default rule is KernelShrink's, on the spatial signs.
+    TylerShrink: {"min_dof_wide": 12},
 }
 _VARIANTS = {
+    TylerShrink: [{"params": {"rule": "fixed-point"}, "min_dof_wide": 0}],
     LinearShrink: [
         {"params": {"target": "diagonal"}, "rotation_invariant": False},
         {

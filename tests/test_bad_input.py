@@ -20,7 +20,7 @@ from sklearn.exceptions import NotFittedError
 
 from rmtclean import rules
 from rmtclean.cli import main
-from rmtclean.estimators import LinearShrink, SpikeShrink, SplitShrink
+from rmtclean.estimators import LinearShrink, SpikeShrink, SplitShrink, TylerShrink
 from rmtclean.exceptions import InvalidParameterError
 from rmtclean.laws import MarchenkoPastur, TracyWidom, WignerSemicircle
 from rmtclean.spectrum import CleanedSpectrum, fit_bulk, sample_spectrum
@@ -274,6 +274,43 @@ PARTICULAR_ROWS = [
         ValueError,
         r"'n_splits' parameter of SplitShrink can be at most",
     ),
+    (TylerShrink, {"rule": "bogus"}, _good(), InvalidParameterError, r"'rule'"),
+    (
+        TylerShrink,
+        {"rule": "fixed-point", "shrinkage": 1.5},
+        _good(),
+        InvalidParameterError,
+        r"'shrinkage' parameter of TylerShrink.*\[0, 1\].*Got 1\.5",
+    ),
+    (
+        TylerShrink,
+        {"shrinkage": 0.3},
+        _good(),
+        ValueError,
+        r"TylerShrink.fit: shrinkage applies to rule='fixed-point' only",
+    ),
+    (
+        TylerShrink,
+        {"rule": "fixed-point", "shrinkage": 0.0},
+        _good(6, 8),
+        ValueError,
+        r"without shrinkage needs more weighted nonzero rows than features",
+    ),
+    (
+        TylerShrink,
+        {"scale_estimate": "mad"},
+        _good(),
+        InvalidParameterError,
+        r"'scale_estimate' parameter of TylerShrink",
+    ),
+    (
+        TylerShrink,
+        {"vol_half_life": 10.0},
+        np.c_[_good(), np.r_[np.zeros(20), np.ones(10)]],
+        ValueError,
+        r"TylerShrink.fit: vol_half_life needs every column to vary .* column 5 is "
+        r"constant there: zero volatility",
+    ),
 ]
 
 
@@ -515,6 +552,30 @@ FUNCTION_ROWS = [
         lambda: WignerSemicircle().ppf(None),
         TypeError,
         r"'q' argument of WignerSemicircle.ppf must be real numbers",
+    ),
+    (
+        "chen_wiesel_hero_intensity negative eigenvalue",
+        lambda: rules.chen_wiesel_hero_intensity([1.0, -1.0], 10, 2),
+        ValueError,
+        r"'sign_eigenvalues' parameter of chen_wiesel_hero_intensity",
+    ),
+    (
+        "chen_wiesel_hero_intensity zero n",
+        lambda: rules.chen_wiesel_hero_intensity([1.0, 1.0], 0, 2),
+        InvalidParameterError,
+        r"'n_samples' parameter of chen_wiesel_hero_intensity",
+    ),
+    (
+        "tyler_shape shrinkage above 1",
+        lambda: rules.tyler_shape(np.eye(3), shrinkage=2.0),
+        InvalidParameterError,
+        r"'shrinkage' parameter of tyler_shape.*Got 2\.0",
+    ),
+    (
+        "tyler_shape NaN",
+        lambda: rules.tyler_shape(np.full((3, 2), np.nan), shrinkage=0.5),
+        ValueError,
+        r"'X' parameter of tyler_shape must be a finite 2-D array",
     ),
 ]
 if hasattr(rules, "eigen_clip"):

@@ -17,6 +17,7 @@ __all__ = [
     "SpikeShrink",
     "SplitShrink",
     "StieltjesShrink",
+    "TylerShrink",
     "find_cleaner",
 ]
 

@@ -117,6 +117,14 @@ CLEANERS: tuple[CleanerEntry, ...] = (
         "split-sample eigenvalues (Lam 2016)",
         takes_missing=False,
     ),
+    CleanerEntry(
+        "TylerShrink",
+        "tyler",
+        "rmtclean.estimators._tyler",
+        "robust shape for heavy tails: a cleaner on the spatial signs, or "
+        "Tyler's fixed point (Chen et al. 2011)",
+        takes_missing=False,
+    ),
 )
 
 

@@ -17,6 +17,14 @@ from rmtclean.rules._spiked import (
 )
 from rmtclean.rules._split import NULL_SPACE_METHODS, split_covariance, split_shrink
 from rmtclean.rules._stieltjes import STIELTJES_ENGINES, stieltjes_shrink
+from rmtclean.rules._tyler import (
+    SHAPE_ROUTES,
+    TylerShape,
+    chen_wiesel_hero_intensity,
+    robust_variance_level,
+    spatial_signs,
+    tyler_shape,
+)
 from rmtclean.rules._types import CleanedEigenvalues
 
 __all__ = [
@@ -25,18 +33,24 @@ __all__ = [
     "KERNEL_ENGINES",
     "KERNEL_FORMULAS",
     "NULL_SPACE_METHODS",
+    "SHAPE_ROUTES",
     "SHRINKAGE_TARGETS",
     "SPIKE_SHRINKERS",
     "STIELTJES_ENGINES",
+    "TylerShape",
+    "chen_wiesel_hero_intensity",
     "eigen_clip",
     "kernel_shrink",
     "linear_shrink",
     "linear_shrink_covariance",
     "optimal_hard_threshold",
+    "robust_variance_level",
     "shrinkage_intensity",
     "shrinkage_target",
+    "spatial_signs",
     "spike_shrink",
     "split_covariance",
     "split_shrink",
     "stieltjes_shrink",
+    "tyler_shape",
 ]

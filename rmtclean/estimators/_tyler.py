@@ -1,0 +1,319 @@
+"""TylerShrink: robust shape estimation for heavy-tailed data."""
+
+from __future__ import annotations
+
+import warnings
+from dataclasses import replace
+
+import numpy as np
+
+from rmtclean._validation import Interval, Options
+from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.exceptions import NotConvergedWarning
+from rmtclean.rules._tyler import (
+    _chen_wiesel_hero_intensity,
+    _squared_norms,
+    _tyler_shape,
+    robust_variance_level,
+    spatial_signs,
+)
+from rmtclean.spectrum import CleanedSpectrum, SampleSpectrum
+
+__all__ = ["TYLER_RULES", "TylerShrink"]
+
+#: The rules TylerShrink applies to the spatial signs (registry short names)
+#: and ``"fixed-point"``: Tyler's M-estimator with Chen-Wiesel-Hero shrinkage.
+TYLER_RULES = ("kernel", "stieltjes", "linear", "clip", "spike", "fixed-point")
+
+#: How the covariance level is restored from the shape.
+SCALE_ESTIMATES = ("robust", "sample")
+
+_DOC = r"""Robust shape for heavy-tailed (elliptical) data, restored to a covariance.
+
+    Heavy tails hurt every cleaner: a few rows of large norm dominate the
+    sample covariance. For an elliptical law (a random scale per row times a
+    Gaussian row: multivariate t, a common volatility shock) the *shape*
+    (the covariance up to a factor) is estimated from the row directions
+    only, which the random scale does not touch:
+
+    - ``rule="kernel"`` (default), ``"stieltjes"``, ``"linear"``,
+      ``"clip"``, ``"spike"``: the rows are self-normalised (spatial signs,
+      ``u_i = sqrt(N) x_i / ||x_i||``) and that cleaner of the registry runs
+      on their sample spectrum, with its default parameters;
+    - ``rule="fixed-point"``: Tyler's (1987) M-estimator of shape, shrunk
+      toward the identity with intensity ``shrinkage`` (default: the plug-in
+      of Chen, Wiesel & Hero 2011); see :func:`rmtclean.rules.tyler_shape`.
+
+    The shape (trace N) is then multiplied by a variance level: by default a
+    robust one from the median row norm (``scale_estimate="robust"``,
+    :func:`rmtclean.rules.robust_variance_level`), exact for Gaussian rows
+    and, for heavy tails, the level of the Gaussian law with the same
+    median norm, below the covariance (for a multivariate t with 3 degrees
+    of freedom about 0.42 of it); ``"sample"`` uses the sample's mean
+    variance ``tr(S) / N`` instead.
+
+    Parameters
+    ----------
+    rule : {"kernel", "stieltjes", "linear", "clip", "spike", "fixed-point"}, \
+default="kernel"
+        The cleaner applied to the spatial signs, or Tyler's fixed point.
+    shrinkage : float or None, default=None
+        ``rule="fixed-point"`` only: the intensity ``rho`` in [0, 1] toward
+        the identity; ``None`` is Chen, Wiesel & Hero's plug-in. 0 is
+        Tyler's estimator without shrinkage (needs more rows than features).
+    scale_estimate : {"robust", "sample"}, default="robust"
+        How the covariance level is restored (see above).
+    tol : float, default=1e-10
+        Convergence tolerance of the fixed point (relative change of the row
+        weights).
+    max_iter : int, default=1000
+        Most fixed-point iterations.
+%(common)s
+    Attributes
+    ----------
+    covariance_ : ndarray of shape (n_features, n_features) or None
+        ``variance_level_`` times the shape (then ``D . D`` with the column
+        scales under ``standardize`` or ``vol_half_life``).
+    precision_ : ndarray of shape (n_features, n_features) or None
+        Its inverse (when stored).
+    location_ : ndarray of shape (n_features,)
+        The column means (zeros when ``assume_centered``); the rows are
+        centred at the mean before their directions are taken.
+    spectrum_ : CleanedSpectrum
+        The estimate in spectral form (eigenvectors of the shape, not of the
+        sample covariance).
+    sample_eigenvalues_ : ndarray of shape (n_features,)
+        Descending eigenvalues of the sample covariance (for reference).
+    eigenvalues_ : ndarray of shape (n_features,)
+        Eigenvalues of the estimate (before the column scales), descending
+        for the eigenvectors ``eigenvectors_``; not paired with
+        ``sample_eigenvalues_``.
+    eigenvectors_ : ndarray of shape (n_features, n_components)
+        Eigenvectors of the shape.
+    n_signal_ : int or None
+        The rule's count of signal eigenvalues (``"clip"``, ``"spike"``),
+        else None.
+    shape_eigenvalues_ : ndarray of shape (n_features,)
+        Eigenvalues of the shape, trace N.
+    variance_level_ : float
+        The factor from shape to covariance.
+    shrinkage_ : float or None
+        The intensity used by ``rule="fixed-point"``; None otherwise.
+    n_iter_ : int
+        Fixed-point iterations; 1 for the other rules (one pass over the
+        signs).
+    rule_estimator_ : SpectralCovariance or None
+        The cleaner applied to the spatial signs, with its fitted
+        by-products (e.g. ``bandwidth_``); None for ``"fixed-point"``.
+    scale_ : ndarray of shape (n_features,) or None
+        Column scales (``standardize``, ``vol_half_life``).
+    volatility_ : ndarray of shape (n_features,) or None
+    degrees_of_freedom_ : float
+    n_features_in_ : int
+    feature_names_in_ : ndarray of shape (n_features_in_,)
+
+    See Also
+    --------
+    rmtclean.rules.tyler_shape, rmtclean.rules.spatial_signs
+    KernelShrink : the default rule, on the raw rows.
+
+    Notes
+    -----
+    When to use it: rows with heavy tails or a common random scale (daily
+    returns across assets). On multivariate t data with 3 degrees of
+    freedom (N = 100, T = 200, the 1/3/10 mixture and Toeplitz designs), the
+    trace-normalised Frobenius loss of the default is about 0.05 of
+    KernelShrink's and 0.5 of LinearShrink's; on Gaussian data it matches
+    KernelShrink (tests/test_estimator_tyler.py measures these). The
+    spatial signs are orthogonally but not affinely equivariant: give
+    series of very different scales ``standardize=True`` (or
+    ``vol_half_life``), so that no column dominates the row norms.
+
+    The signs are treated as rows with the degrees of freedom of the data
+    (``T - 1`` after demeaning; the Kish size with ``half_life``), which
+    the rule and the Chen-Wiesel-Hero intensity receive as ``n``. Rows
+    equal to the mean have no direction: they count in the level's median
+    but not in the shape. Both routes work (the fixed point then iterates
+    on the T x T Gram matrix by Woodbury's identity); dask arrays and NaN
+    entries are not supported (the rows must be in memory).
+
+    References
+    ----------
+    .. [1] D. E. Tyler, "A distribution-free M-estimator of multivariate
+       scatter", Ann. Statist. 15(1), 234-251, 1987.
+    .. [2] Y. Chen, A. Wiesel and A. O. Hero, "Robust shrinkage estimation
+       of high-dimensional covariance matrices", IEEE Trans. Signal
+       Process. 59(9), 4097-4107, 2011.
+    .. [3] E. Ollila, D. P. Palomar and F. Pascal, "Shrinking the
+       eigenvalues of M-estimators of covariance matrix", IEEE Trans.
+       Signal Process. 69, 256-269, 2021.
+    .. [4] S. Visuri, V. Koivunen and H. Oja, "Sign and rank covariance
+       matrices", J. Statist. Plann. Inference 91(2), 557-575, 2000.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from rmtclean.estimators import KernelShrink, TylerShrink
+    >>> from rmtclean.synthetic import make_design
+    >>> design = make_design("mixture", 100)
+    >>> X = design.sample(200, distribution="multivariate-t", df=3, random_state=0)
+    >>> def shape_loss(C):
+    ...     A = C / np.trace(C) - design.covariance / np.trace(design.covariance)
+    ...     return 100 * np.sum(A * A)
+    >>> robust = shape_loss(TylerShrink().fit(X).covariance_)
+    >>> plain = shape_loss(KernelShrink().fit(X).covariance_)
+    >>> bool(robust < 0.25 * plain)
+    True
+    """
+
+
+class TylerShrink(SpectralCovariance):
+    __doc__ = _DOC.replace(
+        "%(common)s", common_params_doc(exclude=("missing",)).rstrip("\n")
+    )
+
+    _parameter_specs: dict = {
+        "rule": [Options(TYLER_RULES)],
+        "shrinkage": [None, Interval(float, 0.0, 1.0)],
+        "scale_estimate": [Options(SCALE_ESTIMATES)],
+        "tol": [Interval(float, 0.0, None, closed="neither")],
+        "max_iter": [Interval(int, 1, None)],
+    }
+    _needs_samples = True
+
+    def __init__(
+        self,
+        *,
+        rule="kernel",
+        shrinkage=None,
+        scale_estimate="robust",
+        tol=1e-10,
+        max_iter=1000,
+        store_precision=True,
+        assume_centered=False,
+        standardize=False,
+        route="auto",
+        store_covariance="auto",
+        half_life=None,
+        vol_half_life=None,
+    ):
+        super().__init__(
+            store_precision=store_precision,
+            assume_centered=assume_centered,
+            standardize=standardize,
+            route=route,
+            store_covariance=store_covariance,
+            half_life=half_life,
+            vol_half_life=vol_half_life,
+        )
+        self.rule = rule
+        self.shrinkage = shrinkage
+        self.scale_estimate = scale_estimate
+        self.tol = tol
+        self.max_iter = max_iter
+
+    def _clean(self, spectrum: SampleSpectrum) -> CleanedSpectrum:
+        if self.shrinkage is not None and self.rule != "fixed-point":
+            raise ValueError(
+                "TylerShrink.fit: shrinkage applies to rule='fixed-point' only. "
+                f"Got shrinkage={self.shrinkage!r} with rule={self.rule!r}."
+            )
+        rows, w = spectrum.samples, spectrum.weights
+        p = spectrum.n_features
+        self.shrinkage_, self.n_iter_, self.rule_estimator_ = None, 1, None
+        self._n_signal = None
+        signs = spatial_signs(rows)
+        if self.rule == "fixed-point":
+            vecs, vals, null = self._fixed_point(spectrum, signs)
+        else:
+            vecs, vals, null = self._signs_cleaned(spectrum, signs)
+        full = np.r_[vals, np.full(p - vals.size, 0.0 if null is None else null)]
+        total = full.sum()
+        if not total > 0:  # no direction at all: the zero covariance
+            self.shape_eigenvalues_ = np.zeros(p)
+            self.variance_level_ = 0.0
+            zero = None if null is None else 0.0
+            return CleanedSpectrum(
+                vecs, np.zeros_like(vals), zero, scale=spectrum.scale
+            )
+        factor = p / total
+        self.shape_eigenvalues_ = full * factor
+        if self.scale_estimate == "sample":
+            level = float(spectrum.eigenvalues.sum()) / p
+        else:
+            norms2, unit = _squared_norms(rows)
+            level = (
+                unit
+                * unit
+                * robust_variance_level(norms2, self.shape_eigenvalues_, p, w)
+            )
+        self.variance_level_ = level
+        scale = level * factor
+        return CleanedSpectrum(
+            vecs,
+            vals * scale,
+            None if null is None else null * scale,
+            scale=spectrum.scale,
+        )
+
+    def _sign_spectrum(self, spectrum: SampleSpectrum, signs, keep_samples: bool):
+        """The sample spectrum of the signs, with the data's degrees of freedom."""
+        sign_spectrum = SampleSpectrum.from_data(
+            signs,
+            assume_centered=True,
+            sample_weight=spectrum.weights,
+            route=spectrum.route,
+            keep_samples=keep_samples,
+        )
+        return replace(sign_spectrum, n_samples=spectrum.n_samples)
+
+    def _signs_cleaned(self, spectrum, signs):
+        from rmtclean.estimators._registry import find_cleaner
+
+        inner = find_cleaner(self.rule).cls(assume_centered=self.assume_centered)
+        sign_spectrum = self._sign_spectrum(spectrum, signs, inner._needs_samples)
+        try:
+            cleaned = inner._clean(sign_spectrum)
+        except ValueError as exc:
+            message = str(exc).split(".fit: ", 1)[-1]
+            raise ValueError(
+                f"TylerShrink.fit (rule={self.rule!r}, on the spatial signs): {message}"
+            ) from exc
+        self.rule_estimator_ = inner
+        if isinstance(cleaned, CleanedSpectrum):  # pragma: no cover - no such rule
+            raise TypeError(f"rule {self.rule!r} is not rotation invariant")
+        self._n_signal = cleaned.n_signal
+        values = np.asarray(cleaned.values, dtype=np.float64)
+        has_null = sign_spectrum.n_components < spectrum.n_features
+        null = cleaned.null_value if has_null else None
+        return sign_spectrum.eigenvectors, values, null
+
+    def _fixed_point(self, spectrum, signs):
+        n = float(spectrum.n_samples)
+        rho = self.shrinkage
+        if rho is None:
+            sign_spectrum = self._sign_spectrum(spectrum, signs, False)
+            vals = sign_spectrum.eigenvalues
+            rho = _chen_wiesel_hero_intensity(vals, n, spectrum.n_features)
+        w = np.ones(signs.shape[0]) if spectrum.weights is None else spectrum.weights
+        try:
+            shape = _tyler_shape(
+                signs, w, float(rho), spectrum.route, self.tol, self.max_iter
+            )
+        except ValueError as exc:
+            raise ValueError(f"TylerShrink.fit (rule='fixed-point'): {exc}") from exc
+        if not shape.converged:
+            warnings.warn(
+                "TylerShrink.fit: the fixed point did not converge to "
+                f"tol={self.tol!r} in max_iter={self.max_iter!r} iterations; "
+                "the last iterate is used.",
+                NotConvergedWarning,
+                stacklevel=4,
+            )
+        self.shrinkage_ = float(rho)
+        self.n_iter_ = shape.n_iter
+        return shape.eigenvectors, shape.eigenvalues, shape.null_value
+
+    def _store(self, spectrum, cleaned, dtype) -> None:
+        super()._store(spectrum, cleaned, dtype)
+        self.n_signal_ = self._n_signal
