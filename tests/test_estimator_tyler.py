@@ -16,6 +16,7 @@ import scipy.stats
 
 from rmtclean import EigenClip, KernelShrink, LinearShrink, TylerShrink
 from rmtclean.estimators import find_cleaner
+from rmtclean.estimators._tyler import _SIGN_RULES
 from rmtclean.exceptions import NotConvergedWarning
 from rmtclean.metrics import frobenius_loss
 from rmtclean.rules import (
@@ -159,6 +160,11 @@ def test_gaussian_shape_loss_close_to_kernel(name):
 
 
 # -- the pieces ----------------------------------------------------------------------
+def test_sign_rules_are_the_registry_cleaners():
+    for short, cls in _SIGN_RULES.items():
+        assert find_cleaner(short).cls is cls
+
+
 def test_other_rules_are_the_registry_cleaner_on_the_signs(rng):
     X = _t_rows(90, np.linspace(4.0, 0.5, 25), seed=7)
     U = spatial_signs(X)

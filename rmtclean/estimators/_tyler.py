@@ -9,6 +9,11 @@ import numpy as np
 
 from rmtclean._validation import Interval, Options
 from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.estimators._clip import EigenClip
+from rmtclean.estimators._kernel import KernelShrink
+from rmtclean.estimators._linear import LinearShrink
+from rmtclean.estimators._spiked import SpikeShrink
+from rmtclean.estimators._stieltjes import StieltjesShrink
 from rmtclean.exceptions import NotConvergedWarning
 from rmtclean.rules._tyler import (
     _chen_wiesel_hero_intensity,
@@ -21,9 +26,19 @@ from rmtclean.spectrum import CleanedSpectrum, SampleSpectrum
 
 __all__ = ["TYLER_RULES", "TylerShrink"]
 
-#: The rules TylerShrink applies to the spatial signs (registry short names)
-#: and ``"fixed-point"``: Tyler's M-estimator with Chen-Wiesel-Hero shrinkage.
-TYLER_RULES = ("kernel", "stieltjes", "linear", "clip", "spike", "fixed-point")
+#: The cleaners TylerShrink applies to the spatial signs, by their registry
+#: short names (imported here, not looked up: the registry imports this module).
+_SIGN_RULES = {
+    "kernel": KernelShrink,
+    "stieltjes": StieltjesShrink,
+    "linear": LinearShrink,
+    "clip": EigenClip,
+    "spike": SpikeShrink,
+}
+
+#: The rules of TylerShrink: a cleaner on the spatial signs, or
+#: ``"fixed-point"``: Tyler's M-estimator with Chen-Wiesel-Hero shrinkage.
+TYLER_RULES = (*_SIGN_RULES, "fixed-point")
 
 #: How the covariance level is restored from the shape.
 SCALE_ESTIMATES = ("robust", "sample")
@@ -268,9 +283,7 @@ class TylerShrink(SpectralCovariance):
         return replace(sign_spectrum, n_samples=spectrum.n_samples)
 
     def _signs_cleaned(self, spectrum, signs):
-        from rmtclean.estimators._registry import find_cleaner
-
-        inner = find_cleaner(self.rule).cls(assume_centered=self.assume_centered)
+        inner = _SIGN_RULES[self.rule](assume_centered=self.assume_centered)
         sign_spectrum = self._sign_spectrum(spectrum, signs, inner._needs_samples)
         try:
             cleaned = inner._clean(sign_spectrum)
