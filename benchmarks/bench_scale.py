@@ -149,10 +149,21 @@ def part_dask(args) -> None:
     print(f"  peak RSS of the dask process: {child['peak_mb']:.0f} MB  (goal < 1024)")
 
 
+def _cleaner_name(text: str) -> str:
+    from rmtclean.estimators import find_cleaner
+
+    return find_cleaner(text).name
+
+
 def main(argv=None) -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--part", choices=["gram", "dask", "all"], default="all")
-    parser.add_argument("--cleaner", default="KernelShrink")
+    parser.add_argument(
+        "--cleaner",
+        default="kernel",
+        type=_cleaner_name,
+        help="the cleaner: a short name, class name or alias (default kernel)",
+    )
     parser.add_argument("--features", type=int, default=20_000)
     parser.add_argument("--samples", type=int, default=200)
     parser.add_argument("--tall-rows", type=int, default=2_000_000)
