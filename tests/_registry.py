@@ -19,8 +19,9 @@ What each case promises is read from its documentation:
   with intensity 0 is the sample covariance itself).
 - ``trace_preserving``: the trace of the cleaned spectrum equals the sample
   trace (EigenClip, Laloux et al. 1999, REFERENCES item 9).
-- ``min_rows``: fewest rows the default parameters accept (SplitShrink's
-  default ``train_size=0.8`` must leave 2 rows in each part).
+- ``min_rows``: fewest rows the default parameters accept: 2 for every
+  cleaner (issue 14: no cleaner refuses a valid sample; SplitShrink's
+  fractional ``train_size`` adapts, with leave-one-out splits below 4 rows).
 - ``closed_form``: the cleaned values are closed-form linear algebra of the
   data (no fitted noise variance found by a minimiser), so equivariances
   hold to rounding; a minimiser locates its argument only to about
@@ -29,10 +30,6 @@ What each case promises is read from its documentation:
   compared more loosely. Unknown cleaners count as fitted.
 - ``varying_columns``: a zero-variance column is refused (the
   constant-correlation target divides by the column scales).
-- ``min_dof_wide``: fewest degrees of freedom accepted when N exceeds them
-  (KernelShrink: the closed form of its null-space term needs
-  ``n_samples >= 12``, rules/_kernel.py); below, the fit must refuse with a
-  ValueError.
 - ``warns_rank_deficient``: the fit diagonalises the sample covariance and
   says when eigenvalues the sample size allows are zero. LinearShrink's
   direct dense route computes no eigendecomposition at fit (its Notes), and
@@ -50,7 +47,6 @@ import rmtclean
 from rmtclean.estimators import (
     CLEANERS,
     EigenClip,
-    KernelShrink,
     LinearShrink,
     SpectralCovariance,
     SplitShrink,
@@ -60,12 +56,17 @@ from rmtclean.estimators import (
 __all__ = [
     "CASES",
     "CLOSED_FORM_RULES",
-    "RULE_MIN_DOF_WIDE",
     "Case",
     "RULES",
+    "cleaner_classes",
     "exported_estimators",
     "make",
 ]
+
+
+def cleaner_classes() -> list[type]:
+    """The library's cleaners, in the order of ``rmtclean.estimators.CLEANERS``."""
+    return [entry.cls for entry in CLEANERS]
 
 
 def exported_estimators() -> list[type]:
@@ -95,14 +96,10 @@ class Case:
     closed_form: bool = False
     varying_columns: bool = False
     warns_rank_deficient: bool = True
-    min_dof_wide: int = 0
 
     def feasible(self, n_rows: int, n_features: int) -> bool:
         """Whether the default parameters accept data of this shape."""
-        dof = n_rows - 1
-        if n_rows < self.min_rows:
-            return False
-        return not (n_features > dof and dof < self.min_dof_wide)
+        return n_rows >= self.min_rows
 
     @property
     def rtol(self) -> float:
@@ -135,14 +132,11 @@ FITTED_RTOL = 1e-6
 # Guarantees by class, applied to the registered cleaners.
 _KNOWN = {
     LinearShrink: {"closed_form": True, "warns_rank_deficient": False},
-    SplitShrink: {"semidefinite": True, "min_rows": 8, "closed_form": True},
+    SplitShrink: {"semidefinite": True, "closed_form": True},
     EigenClip: {"trace_preserving": True},
-    KernelShrink: {"min_dof_wide": 12},
-    # The default rule is KernelShrink's, on the spatial signs.
-    TylerShrink: {"min_dof_wide": 12},
 }
 _VARIANTS = {
-    TylerShrink: [{"params": {"rule": "fixed-point"}, "min_dof_wide": 0}],
+    TylerShrink: [{"params": {"rule": "fixed-point"}}],
     LinearShrink: [
         {"params": {"target": "diagonal"}, "rotation_invariant": False},
         {
@@ -175,8 +169,6 @@ CASES: list[Case] = _cases()
 _RULE_KWARGS = {"linear_shrink": {"intensity": "oas"}}
 #: Rules without a fitted noise variance (see ``closed_form`` above).
 CLOSED_FORM_RULES = {"linear_shrink"}
-#: Fewest degrees of freedom a rule accepts when N exceeds them.
-RULE_MIN_DOF_WIDE = {"kernel_shrink": 12}
 
 
 def _eigenvalue_rules() -> dict:

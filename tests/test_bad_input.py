@@ -254,8 +254,9 @@ PARTICULAR_ROWS = [
         r"'train_size' parameter of SplitShrink",
     ),
     (
+        # A number of rows is used as given (a fraction adapts to small T).
         SplitShrink,
-        {},
+        {"train_size": 4},
         _good(5, 3),
         ValueError,
         r"'train_size' parameter of SplitShrink must leave at least 2 rows",
@@ -269,7 +270,7 @@ PARTICULAR_ROWS = [
     ),
     (
         SplitShrink,
-        {"shuffle": False, "n_splits": 40},
+        {"shuffle": False, "n_splits": 40, "train_size": 24},
         _good(),
         ValueError,
         r"'n_splits' parameter of SplitShrink can be at most",

@@ -279,21 +279,43 @@ def test_dataframe_feature_names_on_both_routes(rng, intensity):
     np.testing.assert_array_equal(est.feature_names_in_, list("abcd"))
 
 
-@pytest.mark.filterwarnings("ignore::rmtclean.exceptions.WeakEstimateWarning")
 @pytest.mark.parametrize("target", TARGETS)
 @pytest.mark.parametrize("scale", [1.0, 1e-150, 1e150])
-def test_two_rows_give_the_pseudo_inverse(rng, target, scale):
-    # [computed] with T = 2 every centred row has x_t x_t' = S, so every
-    # Ledoit-Wolf-type intensity is 0 and S (rank 1) is returned; its precision
-    # is the pseudo-inverse (numpy pinv), at any scale of the data.
+def test_two_rows_give_a_positive_definite_estimate(rng, target, scale):
+    # [computed] With T = 2 every centred row has x_t x_t' = S, so every
+    # Ledoit-Wolf-type intensity is 0 and S (rank 1) would be returned
+    # (sklearn's LedoitWolf does so). Issue 14 asks for a positive-definite
+    # estimate: the identity target takes the OAS intensity (Chen, Wiesel,
+    # Eldar & Hero 2010, eq. 23, written out here with n = T = 2), the other
+    # targets the target itself; the fit warns.
     X = scale * _data(rng, 2, 3)
-    est = LinearShrink(target=target).fit(X)
-    assert est.shrinkage_ == 0.0
     Xc = X - X.mean(axis=0)
     S = Xc.T @ Xc / 2
-    _close(est.covariance_, S)
-    pinv = np.linalg.pinv(S / scale**2, rcond=1e-10) / scale**2
-    _close(est.precision_, pinv)
+    assert lw2004_intensity(Xc / scale, 2.0)[0] == pytest.approx(0.0, abs=1e-12)
+    with pytest.warns(WeakEstimateWarning, match="intensity is 0 while the sample"):
+        est = LinearShrink(target=target).fit(X)
+    p, n = 3, 2.0
+    unit = S / scale**2  # the intensity is scale free: computed in these units
+    tr, tr2 = np.trace(unit), np.sum(unit * unit)
+    if target == "identity":
+        num = (1 - 2 / p) * tr2 + tr**2
+        rho = min(num / ((n + 1 - 2 / p) * (tr2 - tr**2 / p)), 1)
+        assert est.shrinkage_ == pytest.approx(rho, rel=1e-12)
+        expected = (1 - rho) * S + rho * np.trace(S) / p * np.eye(p)
+    else:
+        assert est.shrinkage_ == 1.0
+        sd = np.sqrt(np.diag(S))
+        if target == "diagonal":
+            expected = np.diag(np.diag(S))
+        else:  # mean sample correlation off the diagonal, Ledoit-Wolf (2004)
+            R = S / np.outer(sd, sd)
+            rbar = (R.sum() - p) / (p * (p - 1))
+            expected = rbar * np.outer(sd, sd)
+            np.fill_diagonal(expected, np.diag(S))
+    _close(est.covariance_, expected)
+    if target != "constant-correlation":  # that target is singular at T = 2
+        assert np.linalg.eigvalsh(est.covariance_ / scale**2).min() > 0
+        _close(est.precision_, np.linalg.inv(expected / scale**2) / scale**2)
 
 
 def test_half_life_is_the_kish_weighted_fit(rng):

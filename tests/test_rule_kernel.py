@@ -111,6 +111,41 @@ def test_published_formula_equals_direct_evaluation(rng, T, N):
         assert out.null_value is None
 
 
+@pytest.mark.parametrize("T, N", [(2, 3), (4, 8), (6, 20), (10, 100), (12, 500)])
+def test_few_samples_null_value_is_oas(rng, T, N):
+    # p > n and sqrt(5) h >= 1 (n < 12 with h = n^(-1/3)): Ledoit & Wolf's
+    # (2020) closed form of H~(0) needs sqrt(5) h < 1 (their code states
+    # n >= 12 [authors' code, read]). The non-null values keep the published
+    # p > n formula (direct evaluation above) and the null directions get OAS
+    # linear shrinkage's rho tr(S)/p, Chen, Wiesel, Eldar & Hero (2010), IEEE
+    # Trans. Signal Process. 58(10), eq. (23), written out here.
+    lam, n = _spectrum(rng, T, N)
+    assert SQRT5 * n ** (-1 / 3) >= 1
+    for formula in ("published", "stabilized"):
+        out = kernel_shrink(lam, n, N, formula=formula)
+        d, _ = _direct_lw2020(lam, n, N)
+        np.testing.assert_allclose(out.values, d, rtol=1e-10)
+        tr, tr2 = lam.sum(), np.sum(lam**2)
+        num = (1 - 2 / N) * tr2 + tr**2
+        rho = min(num / ((n + 1 - 2 / N) * (tr2 - tr**2 / N)), 1)
+        assert out.null_value == pytest.approx(rho * tr / N, rel=1e-12)
+        assert out.details["null_method"] == "oas"
+
+
+def test_closed_form_from_twelve_degrees_of_freedom(rng):
+    # 5^1.5 = 11.18: n = 12 is the first integer with sqrt(5) n^(-1/3) < 1.
+    lam, n = _spectrum(rng, 13, 40)
+    out = kernel_shrink(lam, n, 40, formula="published")
+    assert out.details["null_method"] == "closed-form"
+    assert out.null_value == pytest.approx(_direct_lw2020(lam, n, 40)[1], rel=1e-10)
+    small = kernel_shrink(lam[:11], 11, 40, formula="published")
+    assert small.details["null_method"] == "oas"
+    # A bandwidth given below 1/sqrt(5) keeps the closed form at any n.
+    assert kernel_shrink(lam[:5], 5, 40, bandwidth=0.4).details["null_method"] == (
+        "closed-form"
+    )
+
+
 @pytest.mark.parametrize("T, N", [(201, 100), (127, 100), (84, 100), (51, 100)])
 def test_default_equals_published_away_from_ratio_one(rng, T, N):
     # |N/n - 1| > 0.2 for n = T - 1: 0.5, 0.79, 1.205, 2.
@@ -346,8 +381,6 @@ def test_validation_messages():
         kernel_shrink(lam, -1, 3)
     with pytest.raises(ValueError, match="'n_features' parameter of kernel_shrink"):
         kernel_shrink(lam, 100, 2)
-    with pytest.raises(ValueError, match="sqrt\\(5\\) \\* bandwidth < 1"):
-        kernel_shrink(lam, 3, 10)
     with pytest.raises(ValueError, match="all n_features = 5"):
         kernel_shrink(lam, 100, 5)
     with pytest.raises(ValueError, match="NaN"):

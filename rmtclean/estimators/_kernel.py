@@ -3,18 +3,20 @@
 from __future__ import annotations
 
 import math
+import warnings
 
 import numpy as np
 
 from rmtclean._validation import Interval, Options
 from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.exceptions import WeakEstimateWarning
 from rmtclean.rules._combine import (
     _crossvalidated_linear_weight,
     blend_linear,
     expand_zeros,
     plateau_phase,
 )
-from rmtclean.rules._kernel import KERNEL_FORMULAS, _kernel_shrink
+from rmtclean.rules._kernel import KERNEL_FORMULAS, _kernel_shrink, closed_form_null
 from rmtclean.rules._linear import _linear_shrink
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import SampleSpectrum
@@ -129,7 +131,11 @@ _DOC = r"""Analytical nonlinear shrinkage of the sample eigenvalues.
     (the bandwidth still follows the degrees of freedom). With N above that
     effective sample size, the closed form of ``H~(0)`` needs ``sqrt5 h <
     1`` (12 or more degrees of freedom with the default bandwidth); below,
-    ``fit`` raises a ValueError.
+    the null directions get OAS linear shrinkage's value (Chen et al. 2010),
+    chosen by held-out likelihood on an expression panel (see
+    :func:`rmtclean.rules.kernel_shrink`), and ``fit`` warns
+    (``WeakEstimateWarning``). Any panel of 2 or more rows (1 with
+    ``assume_centered``) is accepted.
 
     ``near_singular="cross-validated"`` (opt-in). On each fold the other
     rows give the eigenvectors and both shrunk spectra (kernel with the
@@ -255,13 +261,16 @@ class KernelShrink(SpectralCovariance):
         # kernel estimate rests on), also when the rank is smaller.
         dof = float(spectrum.n_samples)
         h = dof ** (-1.0 / 3.0) if self.bandwidth is None else float(self.bandwidth)
-        if p > n and math.sqrt(5.0) * h >= 1.0:
-            raise ValueError(
-                f"KernelShrink.fit: with n_features = {p} above the effective "
-                f"n_samples = {n:g} (degrees of freedom, or the rank of the "
-                "data), the closed form of H~(0) needs sqrt(5) * bandwidth < 1, "
-                f"i.e. n_samples >= 12 with the default bandwidth. Got "
-                f"bandwidth={h!r}."
+        if not closed_form_null(n, p, h):
+            warnings.warn(
+                f"KernelShrink.fit: n_features = {p} exceeds the effective "
+                f"n_samples = {n:g} and sqrt(5) * bandwidth = {math.sqrt(5.0) * h:.3g} "
+                ">= 1 (fewer than 12 degrees of freedom with the default "
+                "bandwidth), where Ledoit & Wolf's (2020) closed form for the "
+                "null space does not hold: the null directions get OAS linear "
+                "shrinkage's value (Chen et al. 2010), a weak estimate.",
+                WeakEstimateWarning,
+                stacklevel=3,
             )
         out = _kernel_shrink(
             vals, n, p, bandwidth=h, formula=self.formula, n_jobs=self.n_jobs

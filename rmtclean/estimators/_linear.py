@@ -2,12 +2,15 @@
 
 from __future__ import annotations
 
+import warnings
+
 import numpy as np
 from scipy.linalg import lapack
 
 from rmtclean._validation import BOOLEAN, Interval, Options, check_params
 from rmtclean.distributed import is_dask_array
 from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.exceptions import WeakEstimateWarning
 from rmtclean.rules._linear import (
     INTENSITY_METHODS,
     SHRINKAGE_TARGETS,
@@ -120,6 +123,20 @@ _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
       so N > T needs no N x N matrix (``route="gram"``). The other targets
       form ``S`` and ``F`` densely (N x N memory for any ``route``) and
       diagonalise the shrunk matrix to serve ``spectrum_``.
+
+    Two rows. With ``T = 2`` every centred row has ``x_t x_t' = S``, so
+    the Ledoit-Wolf intensity (and its versions for the other targets) is
+    exactly 0 and would return ``S``, singular for ``N >= 2``. Whenever a
+    data-driven intensity is 0 while ``S`` is singular, the identity target
+    uses the OAS intensity instead (Chen et al. 2010, eq. 23; positive for
+    any nonzero ``S``) and the other targets use the target itself
+    (``delta = 1``), and ``fit`` warns (``WeakEstimateWarning``). The
+    identity and diagonal targets are then positive definite for every
+    panel of 2 or more rows without zero-variance columns; the
+    constant-correlation target of a rank-one ``S`` is singular when all its
+    sample correlations are +1 (or half are -1). The rules
+    ``rmtclean.rules.shrinkage_intensity`` and ``linear_shrink`` keep the
+    published intensity.
 
     Missing data (the base's ``missing``) are not supported: the
     Ledoit-Wolf intensity needs complete rows. ``half_life`` acts through
@@ -305,19 +322,39 @@ class LinearShrink(SpectralCovariance):
         n = self._divisor(dof)
         Xc, w = spectrum.samples, spectrum.weights
         p = spectrum.n_features
+        vals = spectrum.eigenvalues
+        # A data-driven intensity of 0 would return a singular S (see Notes).
+        singular = isinstance(self.intensity, str) and (
+            spectrum.n_components < p or not vals[-1] > 0
+        )
         if self.target == "identity":
+            kwargs = {
+                "squared_norms": np.einsum("ij,ij->i", Xc, Xc),
+                "sample_weight": w,
+            }
             out = _linear_shrink(
-                spectrum.eigenvalues * (dof / n),
-                n,
-                p,
-                intensity=self.intensity,
-                squared_norms=np.einsum("ij,ij->i", Xc, Xc),
-                sample_weight=w,
+                vals * (dof / n), n, p, intensity=self.intensity, **kwargs
             )
+            if singular and out.details["intensity"] == 0.0:
+                out = _linear_shrink(vals * (dof / n), n, p, intensity="oas", **kwargs)
+                self._warn_singular("the OAS intensity (Chen et al. 2010, eq. 23)")
             self.shrinkage_ = out.details["intensity"]
             return CleanedEigenvalues(out.values, null_value=out.null_value)
-        self.shrinkage_, _, cov = self._shrunk(Xc, w, n)
+        self.shrinkage_, S, cov = self._shrunk(Xc, w, n)
+        if singular and self.shrinkage_ == 0.0:
+            self.shrinkage_, cov = 1.0, _target(S, self.target)
+            self._warn_singular(f"the {self.target} target itself (intensity 1)")
         return _dense_spectrum(cov, scale=spectrum.scale)
+
+    def _warn_singular(self, used: str) -> None:
+        warnings.warn(
+            f"{type(self).__name__}.fit: the {self.intensity!r} intensity is 0 "
+            "while the sample covariance is singular (e.g. two rows, whose "
+            "centred outer products all equal S), which would return S itself; "
+            f"using {used} instead, a weak estimate.",
+            WeakEstimateWarning,
+            stacklevel=4,
+        )
 
 
 class _RankOnly:

@@ -35,7 +35,11 @@ _DOC = r"""Split-sample shrinkage: eigenvectors from one part, variances from th
     ----------
     train_size : float in (0, 1), int or "auto", default=0.8
         Rows in the train part (the eigenvectors): a fraction or a number;
-        ``"auto"`` picks it from Lam's grid (dense N x N work).
+        ``"auto"`` picks it from Lam's grid (dense N x N work). A fraction
+        adapts to any sample of 2 or more rows (leave-one-out splits when it
+        would leave one evaluation row, see
+        :func:`rmtclean.rules.split_shrink`); a number of rows must leave 2
+        rows in each part (1 with ``assume_centered``).
     n_splits : int, default=10
         Number of splits averaged.
     shuffle : bool, default=True
@@ -70,7 +74,7 @@ _DOC = r"""Split-sample shrinkage: eigenvectors from one part, variances from th
     n_signal_ : None
         The rule computes no bulk edge.
     train_size_ : int
-        Rows in the train part of each split.
+        Rows in the train part of each split (``T - 1`` for leave-one-out).
     train_size_criterion_ : dict or None
         With ``train_size="auto"``: grid point -> Lam's criterion.
     scale_ : ndarray of shape (n_features,) or None

@@ -19,7 +19,6 @@ import numpy as np
 from rmtclean._data import check_data
 from rmtclean._validation import Interval, check_value
 from rmtclean.rules._kernel import (
-    _SQRT5,
     HARD_EDGE_ZONE,
     KERNEL_FORMULAS,
     _kernel_shrink,
@@ -82,13 +81,6 @@ def _kernel_values(vals, r, n, p, bandwidth, formula, n_jobs, where):
     # The bandwidth follows the degrees of freedom, also when the rank is
     # smaller (as rmtclean.estimators.KernelShrink).
     h = n ** (-1.0 / 3.0) if bandwidth is None else float(bandwidth)
-    if p > n_eff and _SQRT5 * h >= 1.0:
-        raise ValueError(
-            f"{where}: with n_features = {p} above the n_samples = {n_eff:g} of "
-            "a training part, the closed form of H~(0) needs sqrt(5) * "
-            f"bandwidth < 1 (12 or more degrees of freedom with the default "
-            f"bandwidth). Got bandwidth={h!r}; use fewer folds or more rows."
-        )
     out = _kernel_shrink(pos, n_eff, p, bandwidth=h, formula=formula, n_jobs=n_jobs)
     return expand_zeros(out, vals.size, p)
 
