@@ -64,7 +64,12 @@ def main(argv=None) -> None:
     parser.add_argument("--sizes", type=int, nargs="+", default=[6, 8, 10, 12])
     parser.add_argument("--repeats", type=int, default=5)
     parser.add_argument("--threads", type=int, default=None)
-    args = parser.parse_args(argv)
+    run_quietly(run, parser.parse_args(argv))
+
+
+def run_quietly(run, args) -> None:
+    """``run(args)`` with ``args.threads`` BLAS threads and the small-sample
+    warnings silenced (small samples are the point of these benchmarks)."""
     with threadpool_limits(limits=args.threads), warnings.catch_warnings():
         warnings.simplefilter("ignore", WeakEstimateWarning)
         warnings.simplefilter("ignore", RankDeficientWarning)

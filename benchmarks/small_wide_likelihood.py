@@ -36,18 +36,22 @@ from __future__ import annotations
 
 import argparse
 import math
-import warnings
+import sys
+from pathlib import Path
 from pprint import pprint
 
 import numpy as np
-from threadpoolctl import threadpool_info, threadpool_limits
+from threadpoolctl import threadpool_info
 
 from rmtclean.estimators import LinearShrink, SplitShrink
-from rmtclean.exceptions import RankDeficientWarning, WeakEstimateWarning
 from rmtclean.rules._kernel import _SQRT5, _hilbert_at_zero
 from rmtclean.spectrum import CleanedSpectrum
 from tests._opendata import tissue_expression
 from tests._registry import cleaner_classes, make
+
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+
+from bench_small_wide import run_quietly  # noqa: E402
 
 
 def _with_null(est, null_value: float) -> CleanedSpectrum:
@@ -134,12 +138,7 @@ def main(argv=None) -> None:
     parser.add_argument("--sizes", type=int, nargs="+", default=[4, 6, 8, 10, 12])
     parser.add_argument("--seed", type=int, default=0)
     parser.add_argument("--threads", type=int, default=1)
-    args = parser.parse_args(argv)
-    with threadpool_limits(limits=args.threads), warnings.catch_warnings():
-        # Small samples warn by design (the point of the benchmark).
-        warnings.simplefilter("ignore", WeakEstimateWarning)
-        warnings.simplefilter("ignore", RankDeficientWarning)
-        run(args)
+    run_quietly(run, parser.parse_args(argv))
 
 
 if __name__ == "__main__":
