@@ -60,6 +60,7 @@ def dask_sample_spectrum(
     route: str = "auto",
     owner: str = "fit",
     eigenvectors: str = "all",
+    randomized_request=None,
 ) -> SampleSpectrum:
     """The :class:`~rmtclean.spectrum.SampleSpectrum` of a dask array.
 
@@ -76,6 +77,9 @@ def dask_sample_spectrum(
         numpy or dask array. With ``eigenvectors="leading"`` the gram route
         keeps the dask array to map the leading eigenvectors back (one more
         pass over the data, for those only).
+    randomized_request : ignored
+        The randomized route (``eigenvectors="randomized"``) needs the
+        data in memory and is refused here.
     owner : str
         Name used in error messages.
 
@@ -95,6 +99,11 @@ def dask_sample_spectrum(
     import dask.array as da
 
     _check(X, owner)
+    if eigenvectors == "randomized":
+        raise ValueError(
+            f"{owner}: eigen_solver='randomized' needs the data in memory; a "
+            "dask array takes eigen_solver='partial' (or 'full')."
+        )
     X = X.astype(np.float64)
     n_rows, n_features = X.shape
     if sample_weight is None:

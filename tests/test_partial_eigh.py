@@ -142,7 +142,9 @@ def test_sample_spectrum_leading_route(rng):
     np.testing.assert_array_equal(
         full.leading_eigenvectors(2), full.eigenvectors[:, :2]
     )
-    with pytest.raises(ValueError, match="eigenvectors must be 'all' or 'leading'"):
+    with pytest.raises(
+        ValueError, match="eigenvectors must be 'all', 'leading' or 'randomized'"
+    ):
         SampleSpectrum.from_data(X, eigenvectors="some")
 
 
@@ -163,3 +165,72 @@ def test_dask_partial_equals_in_memory_full(rng, shape):
         full = cls(eigen_solver="full").fit(X)
         assert part.eigenvectors_.shape[1] == part.n_signal_ == full.n_signal_
         assert _rel(part.covariance_, full.covariance_) < 1e-10
+
+
+# -- the randomized route (Halko, Martinsson & Tropp 2011, SIAM Review 53(2))
+
+
+def _strong(rng, n_rows, n_features, n_spikes):
+    # Spikes of 100 to 300 over unit noise at N / T = 0.25: the bulk edge is
+    # (1 + 0.5)^2 = 2.25 (Marchenko-Pastur), so each application of Z'Z
+    # shrinks the error by about 2.25 / 100 and 8 of them reach rounding.
+    sd = np.ones(n_features)
+    sd[:n_spikes] = np.sqrt(np.linspace(300.0, 100.0, n_spikes))
+    return rng.standard_normal((n_rows, n_features)) * sd
+
+
+def test_randomized_top_eigh_against_numpy(rng):
+    from rmtclean.spectrum._randomized import randomized_top_eigh
+
+    Z = _strong(rng, 400, 100, 4)
+    vals, vecs = randomized_top_eigh(Z, 14)
+    ref_vals, ref_vecs = np.linalg.eigh(Z.T @ Z)  # reference: numpy
+    np.testing.assert_allclose(vals[:4], ref_vals[::-1][:4], rtol=1e-12)
+    overlap = np.abs(np.sum(vecs[:, :4] * ref_vecs[:, ::-1][:, :4], axis=0))
+    np.testing.assert_allclose(overlap, 1.0, atol=1e-12)
+    np.testing.assert_allclose(vecs.T @ vecs, np.eye(14), atol=1e-12)
+
+
+@pytest.mark.parametrize(
+    "cls,params,n_spikes",
+    [
+        (EigenClip, {"n_keep": 3}, 3),
+        (EigenClip, {"edge": 50.0}, 3),
+        (EigenClip, {"edge": 50.0}, 20),  # more than the 16 tried first
+        (SpikeShrink, {"noise_variance": 1.0}, 3),
+        (SpikeShrink, {"noise_variance": 1.0, "loss": "stein"}, 20),
+    ],
+)
+@pytest.mark.parametrize("shape", [(400, 100), (60, 150)])
+def test_randomized_equals_exact_on_separated_spikes(rng, cls, params, n_spikes, shape):
+    X = _strong(rng, *shape, n_spikes)
+    exact = cls(**params).fit(X)
+    fast = cls(eigen_solver="randomized", **params).fit(X)
+    assert fast.n_signal_ == exact.n_signal_
+    assert fast.eigenvectors_.shape == (shape[1], exact.n_signal_)
+    assert _rel(fast.covariance_, exact.covariance_) < 1e-10
+    assert fast.score(X) == pytest.approx(exact.score(X), rel=1e-10)
+    # The trace of the sample covariance is kept: the eigenvalues not
+    # computed are given their mean (reference: numpy's np.cov).
+    trace = np.trace(np.cov(X, rowvar=False))
+    assert np.sum(fast.sample_eigenvalues_) == pytest.approx(trace, rel=1e-12)
+
+
+def test_randomized_is_deterministic(rng):
+    X = _strong(rng, 200, 50, 2)
+    a = EigenClip(n_keep=2, eigen_solver="randomized").fit(X)
+    b = EigenClip(n_keep=2, eigen_solver="randomized").fit(X)
+    np.testing.assert_array_equal(a.covariance_, b.covariance_)
+
+
+def test_randomized_refuses_rules_fitted_to_the_spectrum(rng):
+    X = rng.standard_normal((50, 10))
+    with pytest.raises(
+        ValueError, match=r"EigenClip\(eigen_solver='randomized'\) needs"
+    ):
+        EigenClip(eigen_solver="randomized").fit(X)
+    with pytest.raises(ValueError, match="Got noise_variance='median'"):
+        SpikeShrink(eigen_solver="randomized", noise_variance="median").fit(X)
+    da = pytest.importorskip("dask.array", reason="dask is an optional extra")
+    with pytest.raises(ValueError, match="needs the data in memory"):
+        EigenClip(eigen_solver="randomized", n_keep=1).fit(da.from_array(X))

@@ -166,11 +166,12 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
     def _clean(self, spectrum: SampleSpectrum):  # pragma: no cover - abstract
         raise NotImplementedError
 
-    def _eigenvectors_needed(self) -> str:
-        """``"all"``, or ``"leading"`` for rules that read only eigenvalues and
-        leave a bulk of equal values: the fit then computes the eigenvectors
-        of the other eigenvalues only (:meth:`SampleSpectrum.cleaned`)."""
-        return "all"
+    def _spectrum_options(self) -> dict:
+        """How the sample spectrum is computed: ``eigenvectors="all"``, or
+        ``"leading"`` for rules that read only eigenvalues and leave a bulk of
+        equal values (the fit then computes the eigenvectors of the other
+        eigenvalues only, :meth:`SampleSpectrum.cleaned`)."""
+        return {"eigenvectors": "all"}
 
     # -- fitting ----------------------------------------------------------
     def fit(self, X, y=None, sample_weight=None):
@@ -225,7 +226,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
                 standardize=self.standardize,
                 route=self.route,
                 keep_samples=self._needs_samples,
-                eigenvectors=self._eigenvectors_needed(),
+                **self._spectrum_options(),
             )
         self._warn_if_weak(spectrum)
         self._store(spectrum, self._clean(spectrum), X.dtype)
@@ -266,7 +267,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
             standardize=True,
             route=self.route,
             keep_samples=self._needs_samples,
-            eigenvectors=self._eigenvectors_needed(),
+            **self._spectrum_options(),
         )
         spectrum = replace(spectrum, location=location, scale=vol.forecast)
         return spectrum, vol.forecast
@@ -314,7 +315,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
             standardize=self.standardize,
             route=self.route,
             owner=f"{owner}.fit",
-            eigenvectors=self._eigenvectors_needed(),
+            **self._spectrum_options(),
         )
         self._warn_if_weak(spectrum)
         self.volatility_ = None

@@ -91,7 +91,8 @@ _DOC = r"""Covariance with the noise eigenvalues clipped to their mean.
 
 class EigenClip(OneBulkValue, SpectralCovariance):
     __doc__ = OneBulkValue.fill_doc(
-        _DOC.replace("%(common)s", common_params_doc().rstrip("\n"))
+        _DOC.replace("%(common)s", common_params_doc().rstrip("\n")),
+        "n_keep`` or a numeric ``edge",
     )
 
     _parameter_specs: dict = {
@@ -134,6 +135,13 @@ class EigenClip(OneBulkValue, SpectralCovariance):
         self.edge = edge
         self.alpha = alpha
         self.n_keep = n_keep
+
+    def _randomized_request(self, dof: float, n_features: int):
+        if self.n_keep is not None:
+            return self.n_keep, None
+        if isinstance(self.edge, str):
+            self._refuse_randomized("n_keep or a numeric edge", f"edge={self.edge!r}")
+        return None, float(self.edge)
 
     def _clean(self, spectrum: SampleSpectrum) -> CleanedEigenvalues:
         out = eigen_clip(

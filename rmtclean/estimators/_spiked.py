@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import numpy as np
+
 from rmtclean._validation import Interval, Options
 from rmtclean.estimators._base import SpectralCovariance, common_params_doc
 from rmtclean.estimators._bulkvalue import OneBulkValue
@@ -106,7 +108,8 @@ _DOC = r"""Optimal eigenvalue shrinkage in the spiked covariance model.
 
 class SpikeShrink(OneBulkValue, SpectralCovariance):
     __doc__ = OneBulkValue.fill_doc(
-        _DOC.replace("%(common)s", common_params_doc().rstrip("\n"))
+        _DOC.replace("%(common)s", common_params_doc().rstrip("\n")),
+        "noise_variance`` given as a number",
     )
 
     _parameter_specs: dict = {
@@ -147,6 +150,15 @@ class SpikeShrink(OneBulkValue, SpectralCovariance):
         self.eigen_solver = eigen_solver
         self.loss = loss
         self.noise_variance = noise_variance
+
+    def _randomized_request(self, dof: float, n_features: int):
+        s2 = self.noise_variance
+        if s2 is None or isinstance(s2, str):
+            self._refuse_randomized(
+                "noise_variance as a number", f"noise_variance={s2!r}"
+            )
+        # The bulk edge s2 (1 + sqrt(N / dof))^2 of is_above_bulk_edge.
+        return None, float(s2) * (1.0 + np.sqrt(n_features / dof)) ** 2
 
     def _clean(self, spectrum: SampleSpectrum) -> CleanedEigenvalues:
         out = spike_shrink(

@@ -10,6 +10,7 @@ import scipy.linalg
 
 from rmtclean.spectrum._cleaned import CleanedSpectrum
 from rmtclean.spectrum._partial import TridiagonalEigh
+from rmtclean.spectrum._randomized import randomized_leading
 
 __all__ = ["SampleSpectrum", "sample_spectrum"]
 
@@ -49,7 +50,7 @@ class SampleSpectrum:
     scale : ndarray of shape (n_features,) or None
         Column standard deviations when the spectrum is that of the
         correlation matrix (``standardize=True``), else ``None``.
-    route : {"dense", "gram"}
+    route : {"dense", "gram", "randomized"}
         How the spectrum was computed.
     samples : ndarray of shape (n_rows, n_features) or None
         The centred (and standardised) rows, kept for rules that need the
@@ -145,6 +146,7 @@ class SampleSpectrum:
         route: str = "auto",
         keep_samples: bool = False,
         eigenvectors: str = "all",
+        randomized_request: Callable | None = None,
     ) -> SampleSpectrum:
         """Decompose the sample covariance of ``X`` (rows are observations).
 
@@ -178,6 +180,17 @@ class SampleSpectrum:
             :meth:`leading_eigenvectors` (or :meth:`cleaned`) computes the
             leading ones from the kept reduction (see
             :class:`rmtclean.spectrum._partial.TridiagonalEigh`).
+            ``"randomized"`` forms neither the N x N nor the T x T matrix:
+            randomized subspace iteration on the scaled rows gives the
+            leading eigenpairs only (Halko, Martinsson & Tropp 2011; see
+            :func:`rmtclean.spectrum._randomized.randomized_leading`); the
+            other eigenvalues are all set to their mean, and ``route`` is
+            ``"randomized"``.
+        randomized_request : callable, optional
+            For ``eigenvectors="randomized"``: ``request(dof, n_features)``
+            returns ``(n_leading, threshold)``, how many eigenpairs to
+            compute, or (``n_leading`` None) the eigenvalue level the
+            computed ones must reach down to.
         """
         X = np.asarray(X, dtype=np.float64)
         n_rows, n_features = X.shape
@@ -213,11 +226,13 @@ class SampleSpectrum:
                 "route must be one of 'auto', 'dense' or 'gram'. "
                 f"Got {route!r} instead."
             )
-        if eigenvectors not in ("all", "leading"):
+        if eigenvectors not in ("all", "leading", "randomized"):
             raise ValueError(
-                "eigenvectors must be 'all' or 'leading'. "
+                "eigenvectors must be 'all', 'leading' or 'randomized'. "
                 f"Got {eigenvectors!r} instead."
             )
+        if eigenvectors == "randomized":
+            route = "randomized"  # the scaled rows Z, no N x N or T x T matrix
         scale = None
         if route == "dense" and probs is None:
             # No scaled T x N copy: Xc' Xc (BLAS syrk: numpy passes a matrix
@@ -241,7 +256,12 @@ class SampleSpectrum:
         elif keep_samples and Xc is X:
             Xc = X.copy()
         leading = None
-        if eigenvectors == "leading":
+        if eigenvectors == "randomized":
+            vals, leading = randomized_leading(
+                Z, rank, *randomized_request(dof, n_features)
+            )
+            vecs = None
+        elif eigenvectors == "leading":
             if route == "dense":
                 vals, leading = dense_leading(cov)
             else:
