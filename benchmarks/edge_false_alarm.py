@@ -30,7 +30,8 @@ Reading: estimating the variance without the adjustment makes the test
 conservative (0.019-0.024 at (50, 10)); with it, Johnstone's
 constants sit closest to alpha (largest gap 0.0065, half-integer 0.0092), so
 they are detect_signal's default, although with the variance known the
-half-integer constants are the closer ones (REFERENCES.md item 3).
+half-integer constants are the closer ones (Ma 2012, Bernoulli 18(1),
+constants from memory; Monte Carlo [computed]).
 """
 
 from __future__ import annotations

@@ -18,7 +18,8 @@ What each case promises is read from its documentation:
   (SplitShrink: "p.s.d. (p.d. when S2 is)", rules/_split.py; LinearShrink
   with intensity 0 is the sample covariance itself).
 - ``trace_preserving``: the trace of the cleaned spectrum equals the sample
-  trace (EigenClip, Laloux et al. 1999, REFERENCES item 9).
+  trace (EigenClip, Laloux, Cizeau, Bouchaud & Potters
+  1999, PRL 83(7), from memory).
 - ``min_rows``: fewest rows the default parameters accept: 2 for every
   cleaner (issue 14: no cleaner refuses a valid sample; SplitShrink's
   fractional ``train_size`` adapts, with leave-one-out splits below 4 rows).

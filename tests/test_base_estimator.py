@@ -24,7 +24,7 @@ def test_covariance_is_the_sample_covariance(rng):
 
 
 def test_score_is_mean_gaussian_log_density(rng):
-    # REFERENCES item 7 [paper + checked]: sklearn's score is the mean Gaussian
+    # scikit-learn 1.9.1 source [paper + checked]: sklearn's score is the mean Gaussian
     # log-density; compare with scipy.stats.multivariate_normal.logpdf.
     X = rng.standard_normal((80, 5))
     X_test = rng.standard_normal((30, 5))

@@ -86,7 +86,7 @@ def test_metrics_are_finite_except_for_a_singular_sample(tiny_run):
 
 
 def test_oracle_not_beaten_beyond_monte_carlo_error(tiny_run):
-    # Ledoit & Wolf (2012) [memory], REFERENCES item 12: U diag(u' Sigma u) U'
+    # Ledoit & Wolf (2012, Ann. Statist. 40(2)) [memory]: U diag(u' Sigma u) U'
     # minimises the Frobenius loss over estimates with the sample eigenvectors.
     # A cleaner with other eigenvectors (split samples, graphical lasso) could
     # beat it, but not on average by more than Monte Carlo error.
@@ -100,7 +100,7 @@ def test_oracle_not_beaten_beyond_monte_carlo_error(tiny_run):
 
 def test_sample_covariance_never_better_than_oracle(tiny_run):
     # Per draw, not just on average: the sample covariance has the sample
-    # eigenvectors, so the oracle's optimality (item 12) applies exactly.
+    # eigenvectors, so the oracle's optimality (Ledoit & Wolf 2012) applies exactly.
     cells = _by_cell(tiny_run.rows)
     for (design, ratio, cleaner), rows in cells.items():
         if cleaner not in SAMPLE_LIKE:
@@ -125,7 +125,7 @@ def test_summary_means_and_prial(tiny_run):
         assert entry["frobenius_se"] == pytest.approx(
             values.std(ddof=1) / math.sqrt(values.size), rel=1e-12
         )
-        # [computed] PRIAL as the ratio of mean losses (REFERENCES item 12)
+        # [computed] PRIAL as the ratio of mean losses (Ledoit & Wolf 2012)
         sample = [
             r["frobenius"] for r in cells[(entry["design"], entry["ratio"], SAMPLE)]
         ]

@@ -31,7 +31,7 @@ def test_moments_fixed_ratio_is_the_trace_formula(rng):
     assert fit.noise_variance == pytest.approx(expected, rel=1e-12)
     assert fit.ratio == pytest.approx(58 / (dof - 2), rel=1e-12)
     # Marchenko-Pastur edges s2' (1 +- sqrt q)^2 of the bulk law, with
-    # s2' = s2 (n - k)/n (REFERENCES.md item 1 [memory+checked]).
+    # s2' = s2 (n - k)/n (Marchenko & Pastur 1967 [memory+checked]).
     bulk_var = expected * (dof - 2) / dof
     q = fit.ratio
     assert fit.upper_edge == pytest.approx(bulk_var * (1 + np.sqrt(q)) ** 2)
@@ -40,7 +40,7 @@ def test_moments_fixed_ratio_is_the_trace_formula(rng):
 
 @pytest.mark.parametrize("method", ["cvm", "moments"])
 def test_pure_noise_recovers_variance(rng, method):
-    # Marchenko & Pastur 1967 (REFERENCES.md item 1): white noise, known s2.
+    # Marchenko & Pastur 1967, Math. USSR-Sbornik 1(4): white noise, known s2.
     reps, n_rows, n_features = 20, 401, 200
     fits = [
         fit_bulk(*noise_spectrum(rng, n_rows, n_features), n_features, method=method)
@@ -56,7 +56,7 @@ def test_pure_noise_recovers_variance(rng, method):
 
 @pytest.mark.parametrize("n_rows, n_features", [(401, 200), (101, 300)])
 def test_free_ratio_recovers_ratio_and_variance(rng, n_rows, n_features):
-    # Marchenko-Pastur law (REFERENCES.md item 1); the second case has N > T,
+    # Marchenko-Pastur law (Marchenko & Pastur 1967); the second case has N > T,
     # where only the n nonzero eigenvalues are given.
     reps = 10
     fits = [
@@ -78,7 +78,7 @@ def test_free_ratio_recovers_ratio_and_variance(rng, n_rows, n_features):
 
 
 def test_n_greater_than_t_fixed_ratio(rng):
-    # N > T: MP with ratio > 1 has an atom at 0 (REFERENCES.md item 1); the fit
+    # N > T: MP with ratio > 1 has an atom at 0 (Marchenko & Pastur 1967); the fit
     # uses the nonzero eigenvalues only.
     reps, n_rows, n_features = 20, 101, 300
     fits = [
@@ -91,7 +91,7 @@ def test_n_greater_than_t_fixed_ratio(rng):
     tol = 4 * 1.5 * trace_sd(S2, n_rows - 1, n_features, reps)
     assert abs(estimates.mean() - S2) < tol
     # The nonzero eigenvalues fill the continuous support
-    # s2 (sqrt q -+ 1)^2 (REFERENCES.md item 1 [memory+checked]).
+    # s2 (sqrt q -+ 1)^2 (Marchenko & Pastur 1967 [memory+checked]).
     fit = fits[0]
     assert fit.lower_edge == pytest.approx(S2 * (np.sqrt(3) - 1) ** 2, rel=0.05)
     assert fit.upper_edge == pytest.approx(S2 * (np.sqrt(3) + 1) ** 2, rel=0.05)
@@ -123,7 +123,7 @@ def test_statistic_small_for_mp_large_otherwise(rng):
     eig, dof = noise_spectrum(rng, n_rows, n_features)
     mp_fit = fit_bulk(eig, dof, n_features)
     # Ledoit & Wolf (2020) design: 20% of population eigenvalues at 1, 40% at
-    # 3, 40% at 10 (REFERENCES.md item 6 [memory]): clearly not MP.
+    # 3, 40% at 10 (Ledoit & Wolf 2020, Ann. Statist. 48(5) [memory]): clearly not MP.
     pop = np.repeat([1.0, 3.0, 10.0], [40, 80, 80])
     X = rng.standard_normal((n_rows, n_features)) * np.sqrt(pop)
     spec = sample_spectrum(X)

@@ -30,7 +30,7 @@ def binomial_band(p, reps, z=3.0):
 @pytest.mark.parametrize("n_rows, n_features", [(50, 10), (40, 80)])
 def test_false_alarm_rate_near_alpha(rng, n_rows, n_features):
     # On pure noise P(n_signal >= 1) must sit near alpha, with the noise
-    # variance estimated (Johnstone 2001 scaling, REFERENCES.md item 3; the
+    # variance estimated (Johnstone 2001, Ann. Statist. 29(2), scaling; the
     # estimated-variance adjustment of detect_signal's Notes). Without the
     # adjustment the rate at (50, 10) is about 0.025 (benchmarks/
     # edge_false_alarm.py), below the band: the test can fail.
@@ -47,7 +47,7 @@ def test_false_alarm_rate_near_alpha(rng, n_rows, n_features):
 
 def test_p_values_roughly_uniform_under_null(rng):
     # Under the null the first p-value is approximately U(0, 1) (the TW1 limit,
-    # Johnstone 2001, REFERENCES.md item 3); compared with scipy's KS test.
+    # Johnstone 2001, Ann. Statist. 29(2)); compared with scipy's KS test.
     reps, n_rows, n_features = 400, 201, 100
     p = np.empty(reps)
     for r in range(reps):
@@ -68,7 +68,7 @@ def test_p_values_roughly_uniform_under_null(rng):
 )
 def test_planted_spikes_all_detected_and_no_more(rng, n_rows, n_features, spikes):
     # Spikes far above the BBP threshold s2 (1 + sqrt q) (Baik, Ben Arous &
-    # Peche 2005; REFERENCES.md item 4) separate from the bulk.
+    # Peche 2005, Ann. Probab. 33(5)) separate from the bulk.
     q = n_features / (n_rows - 1)
     assert min(spikes) > 3 * S2 * (1 + np.sqrt(q))
     eig, dof = spiked_spectrum(rng, n_rows, n_features, spikes=spikes)
@@ -89,7 +89,7 @@ def test_planted_spikes_all_detected_and_no_more(rng, n_rows, n_features, spikes
 
 def test_known_variance_statistic_is_johnstone_formula(rng):
     # [computed] with s2 given: s = (n lambda_1 / s2 - mu) / sigma, with mu and
-    # sigma from largest_eigenvalue_scaling (Johnstone 2001, REFERENCES.md 3).
+    # sigma from largest_eigenvalue_scaling (Johnstone 2001, Ann. Statist. 29(2)).
     eig, dof = spiked_spectrum(rng, 120, 30, spikes=(40.0,))
     for constants in ("johnstone", "half-integer"):
         test = detect_signal(eig, dof, 30, noise_variance=S2, constants=constants)

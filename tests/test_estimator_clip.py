@@ -54,9 +54,10 @@ def test_equals_function(rng, shape, params, assume_centered):
 
 @pytest.mark.parametrize("shape", [(300, 80), (50, 150)])
 def test_trace_preserved_and_signal_found(rng, shape):
-    # Laloux, Cizeau, Bouchaud & Potters 1999 (REFERENCES.md item 9, from
+    # Laloux, Cizeau, Bouchaud & Potters 1999, PRL 83(7) (from
     # memory): trace kept to 1e-12 relative; spikes far above (4x) the BBP
-    # threshold s2 (1 + sqrt q) (item 4) are the ones kept.
+    # threshold s2 (1 + sqrt q) (Baik, Ben Arous & Peche 2005, Ann. Probab. 33(5)) are
+    # the ones kept.
     spikes, s2 = (90.0, 60.0, 40.0), 2.0
     assert min(spikes) > 4 * s2 * (1 + np.sqrt(shape[1] / (shape[0] - 1)))
     X = spiked_data(rng, *shape, spikes=spikes, s2=s2)

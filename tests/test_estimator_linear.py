@@ -43,7 +43,7 @@ def test_sklearn_checks(estimator, check):
     check(estimator)
 
 
-# -- scikit-learn equality (REFERENCES.md item 7 [paper]: divisor n, demeaned) -----
+# -- scikit-learn equality (1.9.1 source [paper]: divisor n, demeaned) -----
 @pytest.mark.parametrize("shape", SHAPES)
 @pytest.mark.parametrize("assume_centered", [False, True])
 @pytest.mark.parametrize(
@@ -110,7 +110,7 @@ def test_identity_eigenvalues_are_paired(rng, shape):
 
 
 def test_bias_false_uses_degrees_of_freedom(rng):
-    # Ledoit & Wolf (2004) (REFERENCES.md item 7, from memory) evaluated with
+    # Ledoit & Wolf (2004, J. Multivariate Anal. 88(2), from memory) evaluated with
     # S = X_c'X_c/(T-1) and n = T - 1 by the written-out reference.
     T, N = 30, 10
     X = _data(rng, T, N)

@@ -78,8 +78,8 @@ def test_given_noise_variance(rng):
     assert est.n_signal_ == 3
     np.testing.assert_array_equal(est.eigenvalues_[3:], 2.0)
     # The spikes, read off the top eigenvalues: the BBP inversion
-    # (REFERENCES.md item 4) recovers the planted 50, 24, 12 within 3.5
-    # standard errors, about spike * sqrt(2/T) = 7% each at T = 400 (the
+    # (Baik, Ben Arous & Peche 2005, Ann. Probab. 33(5)) recovers the planted 50, 24, 12
+    # within 3.5 standard errors, about spike * sqrt(2/T) = 7% each at T = 400 (the
     # Gaussian limit of a separated eigenvalue, common practice).
     np.testing.assert_allclose(
         est.spike_inversion_.spikes[:3], [50.0, 24.0, 12.0], rtol=0.25

@@ -12,7 +12,8 @@ SQRT5 = np.sqrt(5.0)
 
 # -- numpy twins (broadcast, small N) --------------------------------------
 def _hk_closed(u):
-    """H_k(u), closed form: Ledoit & Wolf 2020, REFERENCES item 6 [memory+checked]."""
+    """H_k(u), closed form: Ledoit & Wolf 2020, Ann. Statist.
+    48(5) [memory+checked]."""
     u = np.asarray(u, dtype=float)
     with np.errstate(divide="ignore", invalid="ignore"):
         v = -0.3 * u / np.pi + 3 / (4 * SQRT5 * np.pi) * (1 - u * u / 5) * np.log(
@@ -62,8 +63,8 @@ def _assert_rel(a, b, rtol):
 # -- the Hilbert transform of the kernel -----------------------------------
 @pytest.mark.parametrize("u", [-7.0, -2.0, -0.5, 0.3, 1.0, 2.0, 3.0, 6.5])
 def test_hilbert_transform_matches_principal_value_quadrature(u):
-    # H_k(u) = (1/pi) PV int k(t)/(t - u) dt (Ledoit & Wolf 2020; REFERENCES
-    # item 6 [memory+checked]), by scipy's Cauchy-weight quadrature.
+    # H_k(u) = (1/pi) PV int k(t)/(t - u) dt (Ledoit & Wolf 2020, Ann. Statist. 48(5)
+    # [memory+checked]), by scipy's Cauchy-weight quadrature.
     def k(t):
         return 3 / (4 * SQRT5) * (1 - t * t / 5)
 
@@ -91,7 +92,7 @@ def test_hilbert_far_field_is_minus_one_over_pi_u():
 
 
 def test_hilbert_at_the_support_edges():
-    # The limit -3u/(10 pi) at |u| = sqrt5 (REFERENCES item 6).
+    # The limit -3u/(10 pi) at |u| = sqrt5 (Ledoit & Wolf 2020, Ann. Statist. 48(5)).
     assert _kernels.epanechnikov_hilbert(SQRT5) == -0.3 * SQRT5 / np.pi
     assert _kernels.epanechnikov_hilbert(-SQRT5) == 0.3 * SQRT5 / np.pi
 

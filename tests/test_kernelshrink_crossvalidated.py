@@ -1,9 +1,9 @@
 """KernelShrink(near_singular="cross-validated"): K-fold blend with linear shrinkage.
 
-Sources: Ledoit & Wolf (2020), Ann. Statist. 48(5) (the kernel rule, REFERENCES.md
-section 6); Ledoit & Wolf (2004), J. Multivariate Anal. 88(2) (linear shrinkage,
-[memory]); the held-out oracle ``u_i' S_test u_i`` of Abadir, Distaso & Zikes
-(2014) and Lam (2016), Ann. Statist. 44(3) (REFERENCES.md section 10, [memory]);
+Sources: Ledoit & Wolf (2020), Ann. Statist. 48(5) (the kernel rule); Ledoit &
+Wolf (2004), J. Multivariate Anal. 88(2) (linear shrinkage, [memory]); the
+held-out oracle ``u_i' S_test u_i`` of Abadir, Distaso & Zikes
+(2014) and Lam (2016), Ann. Statist. 44(3) ([memory]);
 the evidence and standard errors of ``benchmarks/near_singular_crossvalidated.py``
 ([computed], 40 paired draws).
 """

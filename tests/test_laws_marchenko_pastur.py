@@ -1,4 +1,7 @@
-"""Tests of rmtclean.laws.MarchenkoPastur against REFERENCES item 1 and simulation."""
+"""Tests of rmtclean.laws.MarchenkoPastur against published values and simulation.
+
+Source: Marchenko & Pastur 1967, Math. USSR-Sbornik 1(4) (formulas from memory,
+checked by numerical integration); values [computed] by quadrature."""
 
 import math
 
@@ -14,7 +17,7 @@ RATIOS = [0.25, 0.5, 1.0, 2.0]
 def _quad(law, func, upper=None, near=None, eps=1e-14):
     """int_{lower}^{upper} func(x) pdf(x) dx with x = a + (b - a)(1 - cos t)/2.
 
-    The substitution of REFERENCES item 1 removes the square-root edges (and the
+    The substitution x = a + (b - a)(1 - cos t)/2 removes the square-root edges (and the
     1/sqrt(x) pole at ratio 1); written here independently of the library's cdf.
     1 - cos t is evaluated as 2 sin(t/2)^2 to keep small x accurate. ``near``: an x
     where the integrand peaks, passed to quad as a break point; ``eps``: absolute
@@ -35,9 +38,10 @@ def _quad(law, func, upper=None, near=None, eps=1e-14):
     )[0]
 
 
-# --- REFERENCES item 1 values ---------------------------------------------------------
+# --- Marchenko & Pastur (1967) values
+# ---------------------------------------------------------
 
-# Marchenko & Pastur (1967); table of REFERENCES item 1 [computed; quadrature]:
+# Marchenko & Pastur (1967); Math. USSR-Sbornik 1(4); values [computed; quadrature]:
 # q: (lambda_-, lambda_+, Q(0.10), Q(0.25), median, Q(0.75), Q(0.90))
 MP_TABLE = {
     0.25: (0.25, 2.25, 0.3978807559, 0.5766285527, 0.9160040707, 1.3654806833,
@@ -65,7 +69,7 @@ def test_edges_and_quantiles(q, row):
 @pytest.mark.parametrize(
     "q, x, value",
     [
-        # REFERENCES item 1 densities [computed]; f(0.5) = f(0.1) = 2/pi exactly.
+        # Marchenko & Pastur 1967 densities [computed]; f(0.5) = f(0.1) = 2/pi exactly.
         (0.5, 0.5, 2 / math.pi),
         (0.5, 0.1, 2 / math.pi),
         (0.5, 1.0, 0.4210843993),
@@ -81,7 +85,7 @@ def test_density_values(q, x, value):
 
 @pytest.mark.parametrize("q", RATIOS)
 def test_pdf_mass(q):
-    # Mass of the continuous part: 1 for q <= 1, 1/q for q > 1 (REFERENCES item 1,
+    # Mass of the continuous part: 1 for q <= 1, 1/q for q > 1 (Marchenko & Pastur 1967,
     # [memory+checked]); recomputed here by quadrature.
     law = MarchenkoPastur(ratio=q)
     mass = _quad(law, lambda x: 1.0)
@@ -91,7 +95,7 @@ def test_pdf_mass(q):
 
 @pytest.mark.parametrize("q", RATIOS)
 def test_moments_narayana(q):
-    # Narayana form, Bai & Silverstein (2010, Ch. 3) from memory [REFERENCES item 1]:
+    # Narayana form, Bai & Silverstein (2010, Ch. 3) from memory:
     # closed forms of m1..m4, and quadrature of the density [computed] here.
     law = MarchenkoPastur(ratio=q, variance=1.0)
     closed = [1.0, 1 + q, 1 + 3 * q + q**2, 1 + 6 * q + 6 * q**2 + q**3]
@@ -104,14 +108,15 @@ def test_moments_narayana(q):
 
 
 def test_moments_ratio_two():
-    # REFERENCES item 1 [computed: q = 2 gives m2 = 3, m3 = 11, m4 = 45 by quadrature].
+    # Marchenko & Pastur 1967 [computed: q = 2 gives m2 = 3, m3 = 11, m4 = 45 by
+    # quadrature].
     law = MarchenkoPastur(ratio=2.0)
     assert [law.moment(k) for k in (2, 3, 4)] == [3.0, 11.0, 45.0]
 
 
 def test_scaling_with_variance():
     # Quantiles scale linearly in s2: median(q = 0.5, s2 = 2) = 1.6609317632
-    # (REFERENCES item 1 [computed]).
+    # (Marchenko & Pastur 1967 [computed]).
     law = MarchenkoPastur(ratio=0.5, variance=2.0)
     base = MarchenkoPastur(ratio=0.5)
     assert law.ppf(0.5) == pytest.approx(1.6609317632, abs=1e-9)
@@ -194,7 +199,7 @@ def test_isf_upper_tail(q):
 def test_atom_for_ratio_above_one():
     law = MarchenkoPastur(ratio=4.0)
     a = law.lower_edge
-    # jump of 1 - 1/q at 0, flat up to the lower edge [REFERENCES item 1]
+    # jump of 1 - 1/q at 0, flat up to the lower edge (Marchenko & Pastur 1967)
     assert law.cdf(-1e-12) == 0.0
     assert law.cdf(0.0) == 0.75
     assert law.cdf(a / 2) == 0.75 and law.sf(a / 2) == 0.25
@@ -215,7 +220,8 @@ def test_ratio_one_pole_at_zero():
 
 
 def test_stieltjes_reference_value():
-    # REFERENCES item 1 [computed: matches quadrature at z = 1.3 - 0.05i, q = 0.5].
+    # Marchenko & Pastur 1967 [computed: matches quadrature at z = 1.3 - 0.05i, q =
+    # 0.5].
     g = MarchenkoPastur(ratio=0.5).stieltjes(1.3 - 0.05j)
     assert isinstance(g, complex)
     assert g.real == pytest.approx(0.5800497132, abs=1e-10)

@@ -25,8 +25,10 @@ def _gauss(lo, hi, n):
 def _f1_bornemann(s, n=120):
     """det(I - B_s), B_s(x, y) = Ai((x + y)/2 + s)/2 on L2(0, inf).
 
-    Ferrari & Spohn (2005), Nystrom with Gauss-Legendre as in Bornemann (2010)
-    [REFERENCES item 2]. Returns (cdf, sf) with sf = 1 - det from the eigenvalues.
+    Ferrari & Spohn (2005), Nystrom with Gauss-Legendre as in Bornemann (2010,
+    Math. Comp. 79) [from memory, checked against the Painleve route of Tracy
+    & Widom 1996, CMP 177]. Returns (cdf, sf) with sf = 1 - det from the
+    eigenvalues.
     """
     # (x + y)/2 + s beyond 30 + |s| leaves Ai below 1e-40 of its largest value.
     x, w = _gauss(0.0, 2.0 * (30.0 + abs(s)), n)
@@ -38,7 +40,7 @@ def _f1_bornemann(s, n=120):
 
 
 def _f2_airy_kernel(s, n=120):
-    """det(I - K_Ai) on L2(s, inf), Tracy & Widom (1994) [REFERENCES item 2]."""
+    """det(I - K_Ai) on L2(s, inf), Tracy & Widom (1994, CMP 159)."""
     x, w = _gauss(s, s + 40.0 + abs(s), n)
     ai, aip, _, _ = airy(x)
     diff = x[:, None] - x[None, :]
@@ -51,7 +53,7 @@ def _f2_airy_kernel(s, n=120):
 
 # --- published / computed check values ----------------------------------------------
 
-# Bornemann-type Fredholm values, REFERENCES item 2 [computed; stable across 48-128
+# Bornemann-type (2010, Math. Comp. 79) Fredholm values [computed; stable across 48-128
 # nodes; agree with the Painleve route of Tracy & Widom (1996) to 1.1e-13].
 F1_CHECK = {
     -6: 2.7073193e-06,
@@ -74,13 +76,14 @@ F2_CHECK = {
 
 @pytest.mark.parametrize("s, value", F1_CHECK.items())
 def test_tw1_cdf_check_values(s, value):
-    # REFERENCES item 2 [computed], 12 decimals (F1(-6) to 8 significant digits).
+    # Fredholm determinant values [computed], 12 decimals (F1(-6) to 8 significant
+    # digits).
     assert TW1.cdf(s) == pytest.approx(value, abs=1e-12)
 
 
 @pytest.mark.parametrize("s, value", F2_CHECK.items())
 def test_tw2_cdf_check_values(s, value):
-    # REFERENCES item 2 [computed], 12 decimals.
+    # Fredholm determinant values [computed], 12 decimals.
     assert TW2.cdf(s) == pytest.approx(value, abs=1e-12)
 
 
@@ -95,7 +98,7 @@ def test_tw2_cdf_check_values(s, value):
     ],
 )
 def test_tw1_density_check_values(s, value):
-    # REFERENCES item 2 [computed, central difference], 8 decimals.
+    # Fredholm determinant values [computed, central difference], 8 decimals.
     assert TW1.pdf(s) == pytest.approx(value, abs=5e-9)
 
 
@@ -170,7 +173,7 @@ def test_left_tail_asymptotics(s):
     "tw, mean, var, skew, kurt",
     [
         # Bornemann (2010, Markov Process. Relat. Fields 16, table of moments), from
-        # memory; REFERENCES item 2 also recomputed them [computed] to 12-13 digits.
+        # memory; the Fredholm determinant reproduces them [computed] to 12-13 digits.
         (TW1, -1.2065335745820, 1.6077810345810, 0.29346452408, 0.1652429384),
         (TW2, -1.771086807411, 0.8131947928329, 0.224084203610, 0.0934480876),
     ],
@@ -189,7 +192,7 @@ def test_moments_vs_bornemann(tw, mean, var, skew, kurt):
 
 
 def test_moments_vs_tracy_widom_1996_four_digits():
-    # Tracy & Widom (1996, CMP 177) 4-digit values, from memory [REFERENCES item 2].
+    # Tracy & Widom (1996, CMP 177) 4-digit values, from memory.
     assert round(TW1.mean(), 4) == -1.2065
     assert round(TW1.std(), 4) == 1.2680
     assert round(TW2.mean(), 4) == -1.7711
@@ -199,8 +202,8 @@ def test_moments_vs_tracy_widom_1996_four_digits():
 # --- quantiles -----------------------------------------------------------------------
 
 TW1_QUANTILES = {
-    # REFERENCES item 2 [computed, brentq to 1e-14] and Johnstone (2001, Ann. Statist.
-    # 29(2), Table 1, TW1 limit row, 2 decimals) from memory.
+    # Fredholm determinant quantiles [computed, brentq to 1e-14] and Johnstone (2001,
+    # Ann. Statist. 29(2), Table 1, TW1 limit row, 2 decimals) from memory.
     0.01: (-3.8954326731, -3.90),
     0.05: (-3.1803799769, -3.18),
     0.10: (-2.7824279057, -2.78),
@@ -223,7 +226,7 @@ def test_tw1_quantiles(p, values):
 
 @pytest.mark.parametrize(
     "p, value",
-    # REFERENCES item 2, TW2 quantiles [computed], 8 decimals.
+    # Tracy & Widom 1994, CMP 159: TW2 quantiles [computed], 8 decimals.
     [
         (0.01, -3.72444595),
         (0.05, -3.19416673),

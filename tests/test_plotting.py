@@ -153,7 +153,7 @@ def test_spectrum_histogram_and_density_on_one_scale(rng, tmp_path, n_rows, n_fe
     q = n_features / dof
     # [computed] each of the min(N, dof) eigenvalues weighs 1/N: total area
     # min(1, 1/q), the continuous mass of MP(q) (Marchenko & Pastur 1967,
-    # REFERENCES item 1 [memory+checked]).
+    # Marchenko & Pastur 1967, Math. USSR-Sbornik 1(4) [memory+checked]).
     area = float(np.sum(heights * np.diff(edges)))
     assert area == pytest.approx(min(1.0, 1.0 / q), rel=1e-12)
     curve = next(line for line in ax.lines if line.get_label().startswith("Marchenko"))

@@ -176,7 +176,7 @@ def test_cleaned_eigenvalues_in_documented_range(case, data):
         assert np.all(vals[:k] >= s2 * (1 - 1e-12))
     elif case.cls is EigenClip:
         # Laloux et al. 1999: the signal eigenvalues are kept, the others
-        # replaced by their mean (REFERENCES item 9 [memory]).
+        # replaced by their mean (PRL 83(7) [memory]).
         k = est.n_signal_
         assert np.array_equal(vals[:k], sample[:k])
         assert np.allclose(vals[k:], est.bulk_mean_, rtol=1e-12, atol=0)
@@ -189,8 +189,8 @@ def test_cleaned_eigenvalues_in_documented_range(case, data):
 @given(data=st.data())
 def test_trace_preserved_where_promised(case, data):
     # Laloux, Cizeau, Bouchaud & Potters 1999: the clipped eigenvalues are
-    # replaced by their mean, which keeps the trace; REFERENCES item 9 asks
-    # for 1e-12 relative [memory].
+    # replaced by their mean, which keeps the trace (PRL 83(7),
+    # from memory); checked to 1e-12 relative.
     X, _ = data.draw(datasets(case.min_rows, varying=case.varying_columns))
     assume(case.feasible(*X.shape))
     est = _fit(case, X.astype(np.float64))

@@ -22,12 +22,12 @@ def spiked_data(rng, n_rows=801, n_features=200):
 
 
 def test_planted_spikes_and_overlaps_recovered(rng):
-    # Baik, Ben Arous & Peche 2005 / Paul 2007 (REFERENCES.md item 4,
-    # [memory+checked]): spikes above 1 + sqrt(q) are recovered by inverting
-    # lambda = ell (1 + q/(ell - 1)), and the squared overlap of the sample
-    # eigenvector with the true direction tends to
-    # (1 - q/(ell-1)^2)/(1 + q/(ell-1)). Compared over replicates with the
-    # true spikes and the realised overlaps, within 4 Monte Carlo se.
+    # Baik, Ben Arous & Peche 2005 / Paul 2007 (Ann. Probab. 33(5);
+    # Statist. Sinica 17; [memory+checked]): spikes above 1 + sqrt(q) are recovered by
+    # inverting lambda = ell (1 + q/(ell - 1)), and the squared overlap of the sample
+    # eigenvector with the true direction tends to (1 - q/(ell-1)^2)/(1 + q/(ell-1)).
+    # Compared over replicates with the true spikes and the realised overlaps, within 4
+    # Monte Carlo se.
     reps, n_features = 12, 200
     spikes, overlaps, realised, noise = [], [], [], []
     for _ in range(reps):

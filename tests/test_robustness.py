@@ -235,7 +235,7 @@ def test_tracy_widom_tails_finite_and_monotone(beta):
     logsf = _strict(tw.logsf, right)
     assert np.all(np.isfinite(logsf)) and _monotone(logsf, increasing=False)
     # Tracy & Widom 1994/1996: log F(s) ~ -|s|^3/24 (beta 1), -|s|^3/12
-    # (beta 2) as s -> -inf [memory; REFERENCES item 2]; at s = -60 the next
+    # (beta 2) as s -> -inf [from memory]; at s = -60 the next
     # term, |s|^(3/2) / (3 sqrt 2) for beta 1, is 1.2% of the first.
     lead = -(60.0**3) / (24.0 if beta == 1 else 12.0)
     assert abs(logcdf[0] / lead - 1) < 0.02
@@ -279,7 +279,7 @@ def test_marchenko_pastur_extremes_finite_and_monotone(ratio):
     assert np.all((cdf >= 0) & (cdf <= 1)) and np.all((sf >= 0) & (sf <= 1))
     assert _monotone(cdf) and _monotone(sf, increasing=False)
     assert cdf[-1] == 1.0 and sf[0] == 1.0
-    # The atom at 0 for ratio > 1 (Marchenko & Pastur 1967; REFERENCES item 1).
+    # The atom at 0 for ratio > 1 (Marchenko & Pastur 1967, Math. USSR-Sbornik 1(4)).
     assert np.isclose(mp.cdf(0.0), max(0.0, 1 - 1 / ratio), rtol=1e-12, atol=1e-15)
     inside = x[(x > 0) & (x > a) & (x < b)]
     pdf = _strict(mp.pdf, inside)

@@ -31,7 +31,7 @@ EDGES = ["bulk-fit", "tracy-widom", 8.0]
 @pytest.mark.parametrize("n_rows, n_features, spikes", CASES)
 @pytest.mark.parametrize("edge", EDGES)
 def test_trace_preserved_and_top_untouched(rng, n_rows, n_features, spikes, edge):
-    # Laloux, Cizeau, Bouchaud & Potters 1999 (REFERENCES.md item 9, from
+    # Laloux, Cizeau, Bouchaud & Potters 1999, PRL 83(7) (from
     # memory): the clipped eigenvalues are replaced by their mean, which keeps
     # the trace (to 1e-12 relative), and the kept eigenpairs are unchanged.
     eig, dof = spiked_spectrum(rng, n_rows, n_features, spikes=spikes)
@@ -52,7 +52,8 @@ def test_trace_preserved_and_top_untouched(rng, n_rows, n_features, spikes, edge
 
 @pytest.mark.parametrize("n_rows, n_features, spikes", CASES)
 def test_edges_find_the_planted_spikes(rng, n_rows, n_features, spikes):
-    # Spikes far above the BBP threshold s2 (1 + sqrt q) (REFERENCES.md item 4)
+    # Spikes far above the BBP threshold s2 (1 + sqrt q) (Baik, Ben Arous & Peche
+    # 2005, Ann. Probab. 33(5))
     # stand above both the fitted bulk edge and the Tracy-Widom threshold.
     eig, dof = spiked_spectrum(rng, n_rows, n_features, spikes=spikes)
     for edge in ("bulk-fit", "tracy-widom"):
@@ -65,7 +66,7 @@ def test_edges_find_the_planted_spikes(rng, n_rows, n_features, spikes):
 
 
 def test_bulk_fit_edge_is_the_fitted_upper_edge(rng):
-    # Laloux et al. 1999 (item 9, from memory): keep what lies above the upper
+    # Laloux et al. 1999 (PRL 83(7), from memory): keep what lies above the upper
     # edge of the MP law fitted to the spectrum; the noise variance reported
     # is the fit with the kept eigenvalues set aside [computed: fit_bulk].
     eig, dof = spiked_spectrum(rng, 301, 60, spikes=(40.0, 25.0, 15.0))

@@ -46,9 +46,9 @@ def _hk_exact(u):
 def _direct_lw2020(lam, n, p):
     """Ledoit & Wolf (2020) eqs. written out with naive loops.
 
-    REFERENCES item 6 [memory+checked]. H_k in 40-digit arithmetic: in
-    double precision its closed form loses ~eps u^2 to cancellation, which
-    is 1e-8 for the spreads of the mixture design.
+    Ledoit & Wolf 2020, Ann. Statist. 48(5) [memory+checked]. H_k in 40-digit
+    arithmetic: in double precision its closed form loses ~eps u^2 to
+    cancellation, which is 1e-8 for the spreads of the mixture design.
     """
     lam = [float(v) for v in lam]
     m = len(lam)
@@ -68,8 +68,8 @@ def _direct_lw2020(lam, n, p):
             d = lam / ((np.pi * c * lam * f) ** 2 + (1 - c - np.pi * c * lam * H) ** 2)
             return d, None
         d = lam / (np.pi**2 * lam**2 * (f**2 + H**2))
-        # H~(0) as the direct sum at 0 (REFERENCES item 6 checks that it
-        # equals the closed form the rule uses).
+        # H~(0) as the direct sum at 0 (Ledoit & Wolf 2020; it equals the
+        # closed form the rule uses [checked]).
         H0 = sum(_hk_exact(-1 / h) / (h * lj) for lj in lam) / m
     return d, 1 / (np.pi * (p - n) / n * H0)
 
@@ -100,7 +100,7 @@ def test_numba_equals_numpy_engine(rng, T, N):
 
 @pytest.mark.parametrize("T, N", CASES)
 def test_published_formula_equals_direct_evaluation(rng, T, N):
-    # Ledoit & Wolf (2020), REFERENCES item 6 [memory+checked].
+    # Ledoit & Wolf (2020), Ann. Statist. 48(5) [memory+checked].
     lam, n = _spectrum(rng, T, N)
     out = kernel_shrink(lam, n, N, formula="published")
     d, d0 = _direct_lw2020(lam, n, N)
@@ -160,7 +160,7 @@ def test_default_equals_published_away_from_ratio_one(rng, T, N):
 @pytest.mark.parametrize("c", [0.3, 0.5])
 def test_exact_marchenko_pastur_inputs_give_one_below_ratio_one(c):
     # Structure of LW (2020): with the exact MP law for Sigma = I in place of
-    # f~, H~ the p <= n formula returns 1 (REFERENCES item 6 [computed]);
+    # f~, H~ the p <= n formula returns 1 ([computed]);
     # m(x + i0) = pi H + i pi f with m = -g (physics-sign g of the MP law).
     law = MarchenkoPastur(c, 1.0)
     a, b = law.support()
@@ -174,7 +174,7 @@ def test_exact_marchenko_pastur_inputs_give_one_below_ratio_one(c):
 
 
 def test_exact_marchenko_pastur_inputs_give_one_above_ratio_one():
-    # p > n, c = 2 (REFERENCES item 6 [computed]): the nonzero eigenvalues
+    # p > n, c = 2 (Ledoit & Wolf 2020 [computed]): the nonzero eigenvalues
     # follow MP(1/c, variance c); pi H(0) = E[1/lambda] = 1/(c - 1).
     c = 2.0
     law = MarchenkoPastur(1 / c, c)
@@ -228,7 +228,8 @@ def test_scale_equivariance_and_order(rng):
 
 
 def _prial_mixture(N, T, reps, seed):
-    """Frobenius PRIAL (LW 2012/2020 definition, REFERENCES item 12) and its SE."""
+    """Frobenius PRIAL (Ledoit & Wolf 2012, Ann. Statist.
+    40(2), definition from memory) and its SE."""
     design = make_design("mixture", N)
     Sig = design.covariance
     rng = np.random.default_rng(seed)
@@ -255,7 +256,7 @@ def _prial_mixture(N, T, reps, seed):
 @pytest.mark.parametrize("N, T, reference", [(200, 600, 98.0), (100, 300, 96.1)])
 def test_prial_in_the_ledoit_wolf_design(N, T, reference):
     # LW (2020) Monte Carlo design, 20% at 1, 40% at 3, 40% at 10, Gaussian;
-    # reference PRIALs are REFERENCES item 6 [computed] (20 reps, demeaned,
+    # reference PRIALs are [computed] by an independent evaluation (20 reps, demeaned,
     # n_eff = T - 1). Tolerance: both estimates carry MC error, so
     # 3 * sqrt(2) * our bootstrap SE.
     prial, se = _prial_mixture(N, T, reps=30, seed=6)
@@ -352,7 +353,7 @@ def _mv_losses_at_ratio_one(design, dist, reps, seed):
 
 @pytest.mark.parametrize("dist", ["gaussian", "student-t"])
 def test_floor_removes_the_min_variance_breakdown_at_ratio_one(dist):
-    # Minimum-variance loss (Ledoit & Wolf 2017, REFERENCES item 13) on the
+    # Minimum-variance loss (Ledoit & Wolf 2017, Rev. Financial Stud. 30(12)) on the
     # LW mixture design at N/n = 1, where the published formula sends the
     # bottom shrunk values to 0 (benchmarks/near_singular_ratio.md: mean MV
     # loss 154 published, 1.86 stabilized, 1.88 sklearn LedoitWolf at N = 150,

@@ -75,7 +75,7 @@ def _naive_constant_correlation(Xc):
 @pytest.mark.parametrize("assume_centered", [False, True])
 def test_ledoit_wolf_equals_sklearn(rng, shape, assume_centered):
     # scikit-learn 1.9.1 ledoit_wolf / ledoit_wolf_shrinkage / LedoitWolf
-    # (REFERENCES.md item 7 [paper]): S = X'X / n with divisor n.
+    # (scikit-learn 1.9.1 source [paper]): S = X'X / n with divisor n.
     X = _data(rng, *shape)
     cov, delta = linear_shrink_covariance(X, assume_centered=assume_centered)
     ref_cov, ref_delta = ledoit_wolf(X, assume_centered=assume_centered)
@@ -97,7 +97,7 @@ def test_ledoit_wolf_equals_sklearn(rng, shape, assume_centered):
 @pytest.mark.parametrize("shape", SHAPES)
 @pytest.mark.parametrize("assume_centered", [False, True])
 def test_oas_sklearn_variant_equals_sklearn(rng, shape, assume_centered):
-    # scikit-learn 1.9.1 oas / OAS (REFERENCES.md item 7 [paper]): eq. (23) of
+    # scikit-learn 1.9.1 oas / OAS (source [paper]): eq. (23) of
     # Chen et al. (2010) without its 2/p terms.
     X = _data(rng, *shape)
     cov, delta = linear_shrink_covariance(
@@ -126,7 +126,7 @@ def test_fixed_intensity_equals_shrunk_covariance(rng, shape, assume_centered):
 
 def _oas_eq23(S, n):
     """Chen, Wiesel, Eldar & Hero (2010), IEEE TSP 58(10), eq. (23), written out
-    (REFERENCES.md item 7, formula from memory; equation number per sklearn)."""
+    (formula from memory; equation number per sklearn)."""
     p = S.shape[0]
     tr_s2 = np.trace(S @ S)
     tr2_s = np.trace(S) ** 2
@@ -154,7 +154,8 @@ def test_oas_is_equation_23(rng, shape, assume_centered):
 
 
 def test_oas_variants_differ_at_small_p(rng):
-    # REFERENCES.md item 7 [computed]: the gap is about 1e-2 at n = 40, p = 10.
+    # Chen et al. 2010 eq. (23) vs scikit-learn 1.9.1 [computed]: the gap is about 1e-2
+    # at n = 40, p = 10.
     X = rng.standard_normal((40, 10))
     _, paper = linear_shrink_covariance(X, intensity="oas")
     _, sk = linear_shrink_covariance(X, intensity="oas-sklearn")
@@ -213,8 +214,8 @@ def test_rule_null_space_value(rng):
 
 
 def lw2004_intensity(Xc, n):
-    """Ledoit & Wolf (2004), J. Multivariate Anal. 88(2) (REFERENCES.md item 7,
-    from memory), written out: S = X'X/n, m = tr(S)/p, d^2 = ||S - m I||^2,
+    """Ledoit & Wolf (2004), J. Multivariate Anal. 88(2) (from
+    memory), written out: S = X'X/n, m = tr(S)/p, d^2 = ||S - m I||^2,
     b_bar^2 = (1/n^2) sum_k ||x_k x_k' - S||^2 with ||A||^2 = tr(AA')/p,
     intensity min(b_bar^2, d^2)/d^2. Returns (intensity, S, m)."""
     N = Xc.shape[1]

@@ -25,8 +25,8 @@ OPERATOR_LOSSES = ("operator", "operator-precision", "operator-whitened")
 
 
 def _loss(name, A, B):
-    """The loss L(A, B) of Donoho, Gavish & Johnstone 2018 (REFERENCES.md
-    item 5 table), A the truth and B the estimate, from scipy.linalg."""
+    """The loss L(A, B) of Donoho, Gavish & Johnstone 2018 (Ann. Statist.
+    46(4), table of losses), A the truth and B the estimate, from scipy.linalg."""
     p = A.shape[0]
     eye = np.eye(p)
     inv, norm = linalg.inv, linalg.norm
@@ -64,12 +64,12 @@ def _loss(name, A, B):
 
 
 def _overlap(ell, q):
-    # Paul 2007, Thm 4 (REFERENCES.md item 4) [memory+checked].
+    # Paul 2007, Statist. Sinica 17, Thm 4 [memory+checked].
     return (1 - q / (ell - 1) ** 2) / (1 + q / (ell - 1))
 
 
 def _block(ell, c2, eta):
-    """The 2 x 2 spike block of DGJ 2018 (REFERENCES.md item 5) [memory]."""
+    """The 2 x 2 spike block of DGJ 2018 (Ann. Statist. 46(4)) [memory]."""
     v = np.array([np.sqrt(c2), np.sqrt(1 - c2)])
     return np.diag([ell, 1.0]), np.eye(2) + (eta - 1) * np.outer(v, v)
 
@@ -86,7 +86,7 @@ def _one_spike_spectrum(top, n_samples, n_features):
 
 
 # Donoho, Gavish & Johnstone 2018, closed forms evaluated at q = 0.5,
-# lambda = 5 (REFERENCES.md item 5 table, [computed] from the
+# lambda = 5 (Ann. Statist. 46(4); [computed] from the
 # [memory+checked] formulas).
 WORKED_Q05_L5 = {
     "frobenius": 3.7858591653,
@@ -103,12 +103,12 @@ WORKED_Q05_L5 = {
     "divergence": 3.2442888081,
     "frechet": 3.6205879542,
     "affinity": 3.1722760227,
-    # "identified here from numerics" in REFERENCES.md item 5 [computed].
+    # identified from numerics [computed], not recalled from DGJ 2018.
     "operator-whitened": 3.1411810213,
     "nuclear-relative": 1.0815377001,
 }
 
-# Second worked input, q = 0.25, lambda = 3 (REFERENCES.md item 5) [computed].
+# Second worked input, q = 0.25, lambda = 3 (DGJ 2018 closed forms) [computed].
 WORKED_Q025_L3 = {
     "frobenius": 2.2413379135,
     "stein": 1.9183310969,
@@ -119,7 +119,7 @@ WORKED_Q025_L3 = {
 }
 
 # Third, exact surds at q = 1, lambda = 6: ell = 3 + sqrt3, c^2 = sqrt3 - 1
-# (REFERENCES.md item 5) [computed].
+# (DGJ 2018 closed forms) [computed].
 WORKED_Q1_L6 = {
     "frobenius": 2 + SQRT3,
     "entropy": 2 + SQRT3,
@@ -143,7 +143,8 @@ def test_registry_covers_the_closed_forms():
     ],
 )
 def test_worked_values(q, top, ell, c2, expected):
-    # REFERENCES.md item 5 worked inputs (DGJ 2018 closed forms) [computed]:
+    # Worked inputs (Donoho, Gavish & Johnstone 2018, Ann. Statist. 46(4), closed
+    # forms) [computed]:
     # through the public rule and through the registry.
     n_features = 100
     n_samples = int(round(n_features / q))
@@ -163,7 +164,7 @@ def test_worked_values(q, top, ell, c2, expected):
 @pytest.mark.parametrize("q", [0.1, 0.5, 1.0])
 def test_shrinker_minimises_block_loss(loss, q):
     # Each shrinker is the minimiser of its loss on the 2 x 2 spike block
-    # (DGJ 2018; REFERENCES.md item 5 mechanism [memory], checked here by
+    # (DGJ 2018, Ann. Statist. 46(4); mechanism from memory, checked here by
     # direct numerical minimisation [computed]). Brent's bounded search
     # locates a smooth minimum to about sqrt(machine eps) ~ 1.5e-8 relative;
     # 1e-6 allows for the flatter minima. The closed form must also reach a
@@ -192,12 +193,12 @@ def test_shrinker_minimises_block_loss(loss, q):
 
 def test_bulk_and_signal_values():
     # Eigenvalues at or below the bulk edge go to s2; those above follow the
-    # shrinker (DGJ 2018: eta = 1 at or below the edge, REFERENCES.md item 5).
+    # shrinker (DGJ 2018: eta = 1 at or below the edge).
     s2, q = 2.0, 0.5
     n_features, n_samples = 50, 100
     edge = s2 * (1 + np.sqrt(q)) ** 2
     eigenvalues = np.linspace(0.1, edge, n_features)[::-1].copy()
-    eigenvalues[:2] = [s2 * 5.625, s2 * 3.0]  # spikes 5 and 2 (item 4 table)
+    eigenvalues[:2] = [s2 * 5.625, s2 * 3.0]  # spikes 5 and 2 (BBP 2005)
     kept = eigenvalues.copy()
     result = spike_shrink(
         eigenvalues, n_samples, n_features, loss="frobenius", noise_variance=s2
@@ -206,7 +207,7 @@ def test_bulk_and_signal_values():
     assert isinstance(result, CleanedEigenvalues)
     assert result.n_signal == 2
     assert result.null_value is None
-    # Frobenius eta = ell c^2 + s^2 with the item 4 table's c^2 (31/36, 1/3).
+    # Frobenius eta = ell c^2 + s^2 with Paul 2007's c^2 (31/36, 1/3).
     expected_top = s2 * np.array([5 * 31 / 36 + 5 / 36, 2 / 3 + 2 / 3])
     np.testing.assert_allclose(result.values[:2], expected_top, rtol=1e-12)
     np.testing.assert_array_equal(result.values[2:], s2)  # includes the edge
@@ -219,7 +220,7 @@ def test_bulk_and_signal_values():
 @pytest.mark.parametrize("s2", [1.0, 2.0])
 def test_more_features_than_samples(s2):
     # q = 2: the BBP limits hold with a null space (Baik & Silverstein 2006;
-    # REFERENCES.md item 4, q = 2 row: lambda = 110/9, ell = 10,
+    # Baik, Ben Arous & Peche 2005; Paul 2007, q = 2: lambda = 110/9, ell = 10,
     # c^2 = 79/99 [memory+checked]). The null space gets s2.
     n_samples, n_features = 100, 200
     eigenvalues = _one_spike_spectrum(s2 * 110 / 9, n_samples, n_features)
@@ -264,11 +265,12 @@ def test_scale_equivariance(given, rtol):
 @pytest.mark.parametrize(
     "ratio, median",
     [
-        # Marchenko-Pastur medians, REFERENCES.md item 1 table [computed].
+        # Marchenko-Pastur medians (Marchenko & Pastur 1967) [computed].
         (0.25, 0.9160040707),
         (0.5, 0.8304658816),
         (1.0, 0.6527759416),
-        # mu_0.1 from the Gavish & Donoho table, REFERENCES.md item 11.
+        # mu_0.1 from the Gavish & Donoho (2014, IEEE Trans. Inf. Theory 60(8))
+        # table, from memory.
         (0.1, 0.9665651474),
     ],
 )
@@ -278,7 +280,7 @@ def test_marchenko_pastur_median(ratio, median):
 
 def test_median_of_nonzero_part_above_one():
     # For q = 2 the nonzero half of MP(2) has median Q(0.75) = 1.6609317632
-    # (REFERENCES.md item 1 table [computed]) = 2 mu_0.5 (scaling, item 1).
+    # (Marchenko & Pastur 1967 [computed]) = 2 mu_0.5 (quantiles scale with s2).
     assert _nonzero_median_factor(100, 200) == pytest.approx(1.6609317632, rel=1e-9)
     assert _nonzero_median_factor(200, 100) == pytest.approx(0.8304658816, rel=1e-9)
 
@@ -288,7 +290,7 @@ def test_median_of_nonzero_part_above_one():
     [(400, 200, []), (400, 200, [8.0, 5.0, 3.0]), (200, 400, [20.0, 10.0])],
 )
 def test_noise_variance_estimate(n_samples, n_features, spikes):
-    # Median matching (Gavish & Donoho 2014, REFERENCES.md item 11 mu_beta
+    # Median matching (Gavish & Donoho 2014, IEEE Trans. Inf. Theory 60(8), mu_beta
     # idea) with the separated eigenvalues set aside, and the bulk fit
     # started from it: both unbiased within Monte Carlo error (4 standard
     # errors) with and without spikes, q < 1 and q > 1; the bulk fit has the
@@ -450,7 +452,7 @@ SPIKES = [8.0, 5.0, 3.0]
 def test_spiked_design_reaches_asymptotic_optimum():
     # N = 200, T = 400 (q = 0.5), spikes 8, 5, 3, Gaussian, 20 reps: the mean
     # realised loss is within 4 standard errors of the asymptotic optimum
-    # of DGJ 2018 (REFERENCES.md item 5) for every loss but the operator
+    # of DGJ 2018 (Ann. Statist. 46(4)) for every loss but the operator
     # norms, whose finite-sample excess is tested below.
     names = [name for name in SPIKE_SHRINKERS if name not in OPERATOR_LOSSES]
     losses = _realised_losses(names, 200, 400, SPIKES, n_reps=20, seed=11)
@@ -486,9 +488,9 @@ def test_operator_losses_approach_asymptotic_optimum():
 @pytest.mark.parametrize(
     "beta, coefficient, omega, approximation",
     [
-        # REFERENCES.md item 11 table: lambda*(beta) [memory], omega exact
-        # [computed], and the approximation 0.56 b^3 - 0.95 b^2 + 1.82 b + 1.43
-        # [memory].
+        # Gavish & Donoho 2014, IEEE Trans. Inf. Theory 60(8): lambda*(beta) [memory],
+        # omega exact [computed], and the approximation 0.56 b^3 - 0.95 b^2 + 1.82 b +
+        # 1.43 [memory].
         (0.1, 1.5816483953, 1.6087715574, 1.6031),
         (0.25, 1.7580293771, 1.8368657911, 1.8344),
         (0.5, 1.9785990538, 2.1711853485, 2.1725),

@@ -1,8 +1,7 @@
 """Tests for the sample-split rule (rmtclean.rules._split).
 
 Sources: Lam 2016 Ann. Statist. 44(3) (NERCOME) and Abadir, Distaso & Zikes
-2014 J. Econometrics, REFERENCES item 10 (estimator and properties from
-memory).
+2014 J. Econometrics (estimator and properties from memory).
 """
 
 import numpy as np
@@ -177,7 +176,8 @@ def test_assume_centered_uses_uncentred_moments():
 # --------------------------------------------------------------- properties
 @pytest.mark.parametrize("shape", [(60, 8), (15, 30)])
 def test_psd_and_trace_of_each_split(shape):
-    # REFERENCES item 10: diag(P1' S2 P1) >= 0, so p.s.d.; trace = tr(S2).
+    # Lam 2016, Ann. Statist. 44(3) (from memory): diag(P1' S2 P1) >= 0, so p.s.d.;
+    # trace = tr(S2).
     T, N = shape
     X = make_design("power-law", N, rotate=True, random_state=1).sample(
         T, random_state=2
@@ -244,7 +244,7 @@ def test_pooled_null_space_rotates_with_the_data():
 
 
 def test_unbiased_for_the_train_oracle():
-    # REFERENCES item 10 (from memory; the argument is exact): for
+    # Lam 2016, Ann. Statist. 44(3) (from memory; the argument is exact): for
     # independent parts, E[p_j' S2 p_j | P1] = p_j' Sigma p_j, and the pooled
     # null value is unbiased for tr(P0 Sigma)/(N - r1). Checked over 400
     # seeds within 5 standard errors, with N = 6 > m - 1 = 4.
@@ -293,10 +293,10 @@ def test_time_ordered_split_resists_serial_correlation():
 
 def test_beats_sample_covariance_on_mixture_design():
     # [computed] measured PRIAL (Frobenius) of split_shrink at its defaults on
-    # the rotated 1/3/10 mixture (REFERENCES item 6 design), N = 100,
-    # T = 300: 95.5% over 10 reps (seeds 100-109); this cell (5 reps, N = 60,
-    # T = 180) gave 94.3%; scikit-learn's LedoitWolf is near 68% on this
-    # design (REFERENCES item 6 [computed]).
+    # the rotated 1/3/10 mixture (Ledoit & Wolf 2020, Ann. Statist. 48(5), design from
+    # memory), N = 100, T = 300: 95.5% over 10 reps (seeds 100-109); this cell (5 reps,
+    # N = 60, T = 180) gave 94.3%; scikit-learn's LedoitWolf is near 68% on this design
+    # ([computed] with the formulas of Ledoit & Wolf 2020).
     design = make_design("mixture", 60, rotate=True, random_state=0)
     est, sample, oracle = [], [], []
     for seed in range(5):

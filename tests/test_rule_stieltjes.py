@@ -19,14 +19,15 @@ def _one_thread():
 
 
 def _mp_g(z, q, s2):
-    """MP Stieltjes transform, physics sign (REFERENCES item 1 [memory+checked])."""
+    """MP Stieltjes transform, physics sign (Marchenko & Pastur
+    1967, Math. USSR-Sbornik 1(4); from memory, checked by quadrature)."""
     lp, lm = s2 * (1 + math.sqrt(q)) ** 2, s2 * (1 - math.sqrt(q)) ** 2
     return (z + s2 * (q - 1) - np.sqrt(z - lp) * np.sqrt(z - lm)) / (2 * q * s2 * z)
 
 
 def _direct_rie(lam, T, N, eta, regularize, preserve_trace, relative=False):
     """Bun et al. (2016) eq. and Bun, Bouchaud & Potters (2017) regularisation,
-    written out with naive loops (REFERENCES item 8 [memory]); eta absolute.
+    written out with naive loops (Phys. Rep. 666, from memory); eta absolute.
     Null value: Ledoit & Peche (2011), 1/((q - 1) mbar(0)), mbar(0) the mean
     of 1/lambda_j [memory]. ``relative``: rmtclean's width
     eta_i = eta_rel max(lambda_i, tau tr(S)/N), eta_rel = eta N / tr S,
@@ -105,10 +106,10 @@ def test_explicit_eta(rng):
 
 
 def test_pure_noise_sanity_numbers():
-    # REFERENCES item 8 [computed]: pure noise N = 500, T = 1000, truth 1:
-    # bottom-decile mean 0.7546 before the regularisation, 1.0361 after;
-    # sum xi / sum lambda = 0.9785 before any rescaling. Recomputed here over
-    # 6 seeds (not demeaned, T = 1000, as in the reference).
+    # Bun, Bouchaud & Potters 2017, Phys. Rep. 666 [computed]: pure noise N = 500, T =
+    # 1000, truth 1: bottom-decile mean 0.7546 before the regularisation, 1.0361 after;
+    # sum xi / sum lambda = 0.9785 before any rescaling. Recomputed here over 6 seeds
+    # (not demeaned, T = 1000, as in the reference).
     N, T = 500, 1000
     before, after, ratio = [], [], []
     for seed in range(6):
@@ -235,11 +236,11 @@ def _spiked_top(seed, T, N, ell, **kwargs):
 
 
 def test_spike_recovers_the_overlap_weighted_oracle():
-    # Spiked model (REFERENCES item 4 [memory+checked], Baik, Ben Arous &
-    # Peche 2005; Paul 2007 Thm 4): q = 0.5, ell = 5, c^2 = 0.8611111111, so
-    # u' Sigma u -> ell c^2 + s2 (1 - c^2) = 4.4444. The RIE at an outlier
-    # tends to this value (Bun, Bouchaud & Potters 2017 [memory]). Formula
-    # only: no trace rescaling. 20 seeds, T = 400, N = 200.
+    # Spiked model (Baik, Ben Arous & Peche 2005, Ann. Probab. 33(5); Paul
+    # 2007, Statist. Sinica 17, Thm 4; from memory, checked by Monte Carlo): q = 0.5,
+    # ell = 5, c^2 = 0.8611111111, so u' Sigma u -> ell c^2 + s2 (1 - c^2) = 4.4444. The
+    # RIE at an outlier tends to this value (Bun, Bouchaud & Potters 2017 [memory]).
+    # Formula only: no trace rescaling. 20 seeds, T = 400, N = 200.
     c2 = 0.8611111111
     target = 5 * c2 + (1 - c2)
     tops, oracles = [], []
@@ -259,8 +260,8 @@ def test_spike_recovers_the_overlap_weighted_oracle():
 def test_spike_follows_the_bbp_map_of_its_eigenvalue(ell):
     # Given the sample eigenvalue lambda of a spike, the limit of the RIE is
     # ell(lambda) c^2 + s2 (1 - c^2) with the inverse BBP map and Paul's
-    # overlap (REFERENCES item 4 [memory+checked], via rmtclean.spectrum).
-    # Finite-N gap measured 0.1-0.5% (T = 400, N = 200, seeds 0-3).
+    # overlap (Paul 2007, Statist. Sinica 17; from memory, checked, via
+    # rmtclean.spectrum). Finite-N gap measured 0.1-0.5% (T = 400, N = 200, seeds 0-3).
     from rmtclean.spectrum import eigenvalue_to_spike, spike_overlap
 
     q = 0.5
@@ -283,8 +284,9 @@ def test_spike_follows_the_bbp_map_of_its_eigenvalue(ell):
 
 
 def test_monotone_for_well_separated_spikes():
-    # Spikes 80, 40, 20, 10 (BBP threshold 1 + sqrt(0.5) = 1.71, REFERENCES
-    # item 4): the cleaned top four keep the order of the sample eigenvalues.
+    # Spikes 80, 40, 20, 10 (BBP threshold 1 + sqrt(0.5) = 1.71, Baik, Ben
+    # Arous & Peche 2005, Ann. Probab. 33(5)): the cleaned top four keep the order of
+    # the sample eigenvalues.
     rng = np.random.default_rng(11)
     T, N = 400, 200
     X = rng.standard_normal((T, N))

@@ -16,9 +16,9 @@ from rmtclean.spectrum._spikes import (
 )
 
 # Spiked-model table: Baik, Ben Arous & Peche 2005; Paul 2007, Thm 4
-# (REFERENCES.md item 4, [memory+checked]). The table's 10-digit values are the
-# fractions written here (e.g. 0.8611111111 = 31/36, 12.2222222222 = 110/9).
-# Columns: q, ell, lambda(ell), c^2.
+# (Ann. Probab. 33(5); Statist. Sinica 17; from memory, checked by Monte Carlo). The
+# table's 10-digit values are the fractions written here (e.g. 0.8611111111 = 31/36,
+# 12.2222222222 = 110/9). Columns: q, ell, lambda(ell), c^2.
 SPIKE_TABLE = [
     (0.5, 5.0, 5.625, 31 / 36),
     (0.5, 2.0, 3.0, 1 / 3),
@@ -31,7 +31,7 @@ SPIKE_TABLE = [
 
 @pytest.mark.parametrize("q, ell, lam, c2", SPIKE_TABLE)
 def test_table_values(q, ell, lam, c2):
-    # REFERENCES.md item 4 table [memory+checked], exact to 1e-12.
+    # BBP 2005 eigenvalue and Paul 2007 overlap [memory+checked], exact to 1e-12.
     assert spike_to_eigenvalue(ell, q) == pytest.approx(lam, rel=1e-12)
     assert eigenvalue_to_spike(lam, q) == pytest.approx(ell, rel=1e-12)
     assert spike_overlap(ell, q) == pytest.approx(c2, rel=1e-12)
@@ -49,7 +49,7 @@ def test_table_values_vectorised():
 @pytest.mark.parametrize("q", [0.01, 0.3, 1.0, 2.0, 7.5])
 def test_round_trip(q):
     # The inverse undoes the forward map above the threshold and vice versa
-    # (BBP 2005 formula and its root, REFERENCES.md item 4) [computed].
+    # (BBP 2005, Ann. Probab. 33(5), formula and its root) [computed].
     rng = np.random.default_rng(0)
     threshold = 1 + np.sqrt(q)
     spikes = threshold * (1 + np.geomspace(1e-6, 1e3, 200)) * rng.uniform(1, 1.01)
@@ -80,7 +80,8 @@ def test_forward_map_is_increasing_above_threshold():
 @pytest.mark.parametrize("q", [0.25, 1.0, 2.0])
 def test_below_threshold(q):
     # Below 1 + sqrt(q) the top eigenvalue sticks to the edge (1 + sqrt q)^2
-    # and the overlap is 0 (BBP 2005; Paul 2007; REFERENCES.md item 4).
+    # and the overlap is 0 (BBP 2005, Ann. Probab. 33(5); Paul 2007, Statist. Sinica
+    # 17).
     threshold = 1 + np.sqrt(q)
     edge = threshold**2
     assert critical_spike(q) == pytest.approx(threshold, rel=1e-15)
@@ -104,7 +105,7 @@ def test_below_threshold(q):
 @pytest.mark.parametrize("s2", [1e-3, 0.7, 4.0, 250.0])
 def test_noise_variance_scaling(s2):
     # General s2: lambda = s2 lambda(ell / s2), c^2 depends on ell / s2 only
-    # (REFERENCES.md item 4, "General s2") [memory+checked].
+    # (BBP 2005; Paul 2007; general noise level) [memory+checked].
     for q, ell, lam, c2 in SPIKE_TABLE:
         assert spike_to_eigenvalue(s2 * ell, q, s2) == pytest.approx(
             s2 * lam, rel=1e-12
@@ -143,13 +144,13 @@ def _top_eigenpairs(rng, n_features, n_samples, spike, n_reps):
 @pytest.mark.parametrize(
     "n_features, n_samples, spike",
     [
-        (400, 800, 5.0),  # q = 0.5, REFERENCES.md item 4 Monte Carlo design
+        (400, 800, 5.0),  # q = 0.5, our Monte Carlo design
         (400, 200, 10.0),  # q = 2: the same limits with a null space
     ],
 )
 def test_monte_carlo_agrees_with_limits(n_features, n_samples, spike):
     # Monte Carlo (Gaussian, known zero mean) against the BBP 2005 eigenvalue
-    # and the Paul 2007 Thm 4 overlap; REFERENCES.md item 4 reports 5.6407
+    # and the Paul 2007 Thm 4 overlap; an earlier run [computed] gave 5.6407
     # +- 0.0233 and 0.8601 +- 0.0013 at 100 reps for the first design
     # [computed]. Agreement within 4 standard errors.
     q = n_features / n_samples
@@ -165,7 +166,7 @@ def test_monte_carlo_agrees_with_limits(n_features, n_samples, spike):
 
 def test_monte_carlo_inversion_recovers_spike():
     # Inverting the observed top eigenvalues recovers the planted spike
-    # (BBP 2005 inverse, REFERENCES.md item 4) within Monte Carlo error.
+    # (BBP 2005, Ann. Probab. 33(5), inverse) within Monte Carlo error.
     rng = np.random.default_rng(7)
     top, _ = _top_eigenpairs(rng, 400, 800, 5.0, n_reps=30)
     estimates = eigenvalue_to_spike(top, 0.5)
@@ -180,7 +181,7 @@ def test_invert_spikes_result():
     assert isinstance(result, SpikeInversion)
     np.testing.assert_array_equal(eigenvalues, kept)
     np.testing.assert_array_equal(result.eigenvalues, eigenvalues)
-    # REFERENCES.md item 4 table rows q = 0.5 scaled by s2 = 3 [memory+checked].
+    # BBP 2005 / Paul 2007 values at q = 0.5 scaled by s2 = 3 [memory+checked].
     np.testing.assert_allclose(result.spikes, [15.0, 6.0, 3.0, 3.0], rtol=1e-12)
     np.testing.assert_allclose(result.overlaps, [31 / 36, 1 / 3, 0, 0], rtol=1e-12)
     np.testing.assert_array_equal(result.is_signal, [True, True, False, False])

@@ -121,8 +121,8 @@ def test_rademacher_colours_with_symmetric_root():
 
 # ----------------------------------------------------------------- designs
 def test_mixture_counts_and_levels():
-    # Ledoit & Wolf design, 20% at 1, 40% at 3, 40% at 10 (REFERENCES item 6,
-    # from memory): N = 200 -> 40, 80, 80.
+    # Ledoit & Wolf design, 20% at 1, 40% at 3, 40% at 10 (Ledoit & Wolf
+    # 2020, Ann. Statist. 48(5), from memory): N = 200 -> 40, 80, 80.
     values = make_design("mixture", 200).eigenvalues
     assert [np.sum(values == v) for v in (1.0, 3.0, 10.0)] == [40, 80, 80]
     # [computed by hand] N = 7: 1.4, 2.8, 2.8 -> floors 1, 2, 2, the two

@@ -1,4 +1,7 @@
-"""Tests of rmtclean.laws.largest_eigenvalue_scaling (REFERENCES item 3)."""
+"""Tests of rmtclean.laws.largest_eigenvalue_scaling.
+
+Source: Johnstone 2001, Ann. Statist. 29(2) (centring and scaling [paper]).
+"""
 
 import math
 
@@ -15,7 +18,7 @@ N_REPS = 100_000
 @pytest.mark.parametrize(
     "n, p, constants, mu, sigma",
     [
-        # REFERENCES item 3 [computed] from Johnstone (2001, Ann. Statist. 29(2),
+        # [computed] from Johnstone (2001, Ann. Statist. 29(2),
         # abstract [paper]) and the half-integer constants of Ma (2012) [memory].
         (100, 25, "johnstone", 223.498744, 10.013537),
         (100, 25, "half-integer", 222.747152, 10.016360),
@@ -59,7 +62,7 @@ def _largest_eigenvalues(n, p, n_reps, seed):
 
 @pytest.mark.parametrize(
     "n, p, rate_johnstone, rate_half",
-    # REFERENCES item 3 Monte Carlo [computed, 20k-40k reps, se 0.001-0.0015]:
+    # An earlier Monte Carlo [computed, 20k-40k reps, se 0.001-0.0015]:
     # P((l1 - mu)/sigma > 0.9793) at nominal 0.05.
     [(50, 10, 0.0391, 0.0462), (20, 5, 0.0386, 0.0474)],
 )
@@ -70,8 +73,8 @@ def test_rejection_rate_at_tw1_95_quantile(n, p, rate_johnstone, rate_half):
     for constants, ref in (("johnstone", rate_johnstone), ("half-integer", rate_half)):
         mu, sigma = largest_eigenvalue_scaling(n, p, constants=constants)
         rates[constants] = np.mean((l1 - mu) / sigma > q95)
-        # Monte Carlo error of both estimates (ours: 1e5 reps; REFERENCES: se 0.0015),
-        # 3.5 standard errors
+        # Monte Carlo error of both estimates (ours: 1e5 reps; the earlier run: se
+        # 0.0015), 3.5 standard errors
         se = math.hypot(math.sqrt(ref * (1 - ref) / N_REPS), 0.0015)
         assert abs(rates[constants] - ref) < 3.5 * se
         # the same through the p-values that edge tests use
@@ -88,7 +91,8 @@ def test_ks_distance_to_tw1():
     # Johnstone (2001): "informative for n and p as small as 5"; KS distance of the
     # standardised l1 to TW1 at n = 50, p = 10, 1e5 reps (sampling error ~0.004).
     # Measured 0.026 (half-integer), 0.032 (Johnstone); the complex-case centring
-    # (sqrt n + sqrt p)^2 (Johansson 2000, REFERENCES item 3), wrong here, is at 0.090.
+    # (sqrt n + sqrt p)^2 (Johansson 2000, CMP 209, from memory), wrong here, is at
+    # 0.090.
     n, p = 50, 10
     l1 = _largest_eigenvalues(n, p, N_REPS, seed=77)
     ks = {}
