@@ -44,7 +44,7 @@ def test_equals_function(rng, shape, params, assume_centered):
     k = spectrum.n_components
     np.testing.assert_allclose(est.eigenvalues_[:k], out.values, rtol=1e-12)
     assert est.n_signal_ == out.n_signal
-    assert est.bulk_mean_ == out.details["bulk_mean"]
+    assert est.bulk_mean_ == out.details.bulk_mean
     U = SampleSpectrum.from_data(X, assume_centered=assume_centered).eigenvectors
     dense = (U * out.values) @ U.T
     if out.null_value is not None:

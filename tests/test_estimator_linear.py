@@ -184,7 +184,7 @@ def test_rule_and_estimator_share_the_intensity(rng):
     X = _data(rng, 40, 6)
     est = LinearShrink(intensity="oas").fit(X)
     out = linear_shrink(est.sample_eigenvalues_, 40, 6, intensity="oas")
-    assert out.details["intensity"] == pytest.approx(est.shrinkage_, rel=1e-12)
+    assert out.details.intensity == pytest.approx(est.shrinkage_, rel=1e-12)
 
 
 def test_bad_parameters(rng):

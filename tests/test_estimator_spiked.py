@@ -45,9 +45,9 @@ def test_equals_function(rng, shape, loss, assume_centered):
     )
     k = spectrum.n_components
     np.testing.assert_allclose(est.eigenvalues_[:k], out.values, rtol=1e-10)
-    np.testing.assert_array_equal(est.eigenvalues_[k:], out.details["noise_variance"])
+    np.testing.assert_array_equal(est.eigenvalues_[k:], out.details.noise_variance)
     assert est.n_signal_ == out.n_signal == 3
-    assert est.noise_variance_ == pytest.approx(out.details["noise_variance"])
+    assert est.noise_variance_ == pytest.approx(out.details.noise_variance)
     assert est.degrees_of_freedom_ == shape[0] - (0 if assume_centered else 1)
     U = SampleSpectrum.from_data(X, assume_centered=assume_centered).eigenvectors
     dense = (U * out.values) @ U.T

@@ -35,7 +35,7 @@ def test_class_equals_function(shape, shuffle):
     np.testing.assert_allclose(est.covariance_, expected, rtol=1e-10, atol=1e-12)
     if res.null_value is not None:
         np.testing.assert_allclose(est.eigenvalues_[r:], res.null_value, rtol=1e-10)
-    assert est.train_size_ == res.details["train_size"]
+    assert est.train_size_ == res.details.train_size
     assert est.n_signal_ is None
     np.testing.assert_allclose(est.location_, X.mean(axis=0), rtol=1e-12)
 

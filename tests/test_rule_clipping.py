@@ -40,14 +40,14 @@ def test_trace_preserved_and_top_untouched(rng, n_rows, n_features, spikes, edge
     k = out.n_signal
     assert full_trace(out, n_features) == pytest.approx(eig.sum(), rel=1e-12)
     np.testing.assert_array_equal(out.values[:k], eig[:k])
-    assert np.all(out.values[k:] == out.details["bulk_mean"])
+    assert np.all(out.values[k:] == out.details.bulk_mean)
     if n_features > eig.size:
-        assert out.null_value == out.details["bulk_mean"]
+        assert out.null_value == out.details.bulk_mean
     else:
         assert out.null_value is None
     # [computed] the mean over everything not kept, null-space zeros included
     mean = eig[k:].sum() / (n_features - k)
-    assert out.details["bulk_mean"] == pytest.approx(mean, rel=1e-12)
+    assert out.details.bulk_mean == pytest.approx(mean, rel=1e-12)
 
 
 @pytest.mark.parametrize("n_rows, n_features, spikes", CASES)
@@ -62,7 +62,7 @@ def test_edges_find_the_planted_spikes(rng, n_rows, n_features, spikes):
     test = detect_signal(eig, dof, n_features)
     tw = eigen_clip(eig, dof, n_features, edge="tracy-widom")
     assert tw.n_signal == test.n_signal
-    assert tw.details["noise_variance"] == test.noise_variance
+    assert tw.details.noise_variance == test.noise_variance
 
 
 def test_bulk_fit_edge_is_the_fitted_upper_edge(rng):
@@ -72,10 +72,10 @@ def test_bulk_fit_edge_is_the_fitted_upper_edge(rng):
     eig, dof = spiked_spectrum(rng, 301, 60, spikes=(40.0, 25.0, 15.0))
     out = eigen_clip(eig, dof, 60, edge="bulk-fit")
     edge = fit_bulk(eig, dof, 60).upper_edge
-    assert out.details["edge"] == edge
+    assert out.details.edge == edge
     assert out.n_signal == np.count_nonzero(eig > edge)
     refit = fit_bulk(eig, dof, 60, n_signal=out.n_signal)
-    assert out.details["noise_variance"] == refit.noise_variance
+    assert out.details.noise_variance == refit.noise_variance
 
 
 def test_float_edge_and_n_keep(rng):
@@ -109,7 +109,7 @@ def test_pure_noise_becomes_flat_at_noise_variance(rng):
     # and its replaced values also sit at s2
     fitted = eigen_clip(eig, dof, n_features, edge="bulk-fit")
     assert fitted.n_signal <= 2
-    assert abs(fitted.details["bulk_mean"] - S2) < 4 * sd + eig[0] / n_features
+    assert abs(fitted.details.bulk_mean - S2) < 4 * sd + eig[0] / n_features
 
 
 def test_n_greater_than_t_null_value(rng):

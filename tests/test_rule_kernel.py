@@ -129,19 +129,19 @@ def test_few_samples_null_value_is_oas(rng, T, N):
         num = (1 - 2 / N) * tr2 + tr**2
         rho = min(num / ((n + 1 - 2 / N) * (tr2 - tr**2 / N)), 1)
         assert out.null_value == pytest.approx(rho * tr / N, rel=1e-12)
-        assert out.details["null_method"] == "oas"
+        assert out.details.null_method == "oas"
 
 
 def test_closed_form_from_twelve_degrees_of_freedom(rng):
     # 5^1.5 = 11.18: n = 12 is the first integer with sqrt(5) n^(-1/3) < 1.
     lam, n = _spectrum(rng, 13, 40)
     out = kernel_shrink(lam, n, 40, formula="published")
-    assert out.details["null_method"] == "closed-form"
+    assert out.details.null_method == "closed-form"
     assert out.null_value == pytest.approx(_direct_lw2020(lam, n, 40)[1], rel=1e-10)
     small = kernel_shrink(lam[:11], 11, 40, formula="published")
-    assert small.details["null_method"] == "oas"
+    assert small.details.null_method == "oas"
     # A bandwidth given below 1/sqrt(5) keeps the closed form at any n.
-    assert kernel_shrink(lam[:5], 5, 40, bandwidth=0.4).details["null_method"] == (
+    assert kernel_shrink(lam[:5], 5, 40, bandwidth=0.4).details.null_method == (
         "closed-form"
     )
 
@@ -154,7 +154,7 @@ def test_default_equals_published_away_from_ratio_one(rng, T, N):
     a = kernel_shrink(lam, n, N)
     b = kernel_shrink(lam, n, N, formula="published")
     np.testing.assert_allclose(a.values, b.values, rtol=1e-10)
-    assert a.details["n_floored"] == 0
+    assert a.details.n_floored == 0
 
 
 @pytest.mark.parametrize("c", [0.3, 0.5])

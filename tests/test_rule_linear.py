@@ -194,7 +194,7 @@ def test_rule_matches_data_function(rng, shape, intensity):
         intensity=intensity,
         squared_norms=np.einsum("ij,ij->i", Xc, Xc),
     )
-    assert out.details["intensity"] == pytest.approx(delta, rel=1e-9, abs=1e-300)
+    assert out.details.intensity == pytest.approx(delta, rel=1e-9, abs=1e-300)
     dense = (vecs * out.values) @ vecs.T
     if out.null_value is not None:
         dense += out.null_value * (np.eye(N) - vecs @ vecs.T)
@@ -234,7 +234,7 @@ def test_rule_ledoit_wolf_with_dof_divisor_is_the_published_b2(rng):
     expected, S, _ = lw2004_intensity(Xc, T - 1)
     vals = np.linalg.eigvalsh(S)[::-1][: T - 1]
     out = linear_shrink(vals, T - 1, N, squared_norms=np.einsum("ij,ij->i", Xc, Xc))
-    assert out.details["intensity"] == pytest.approx(expected, rel=RTOL)
+    assert out.details.intensity == pytest.approx(expected, rel=RTOL)
 
 
 def test_rule_frequency_weights_repeat_rows(rng):
@@ -248,8 +248,8 @@ def test_rule_frequency_weights_repeat_rows(rng):
     sq = np.einsum("ij,ij->i", Xc, Xc)
     weighted = linear_shrink(vals, n, N, squared_norms=sq, sample_weight=w)
     repeated = linear_shrink(vals, n, N, squared_norms=np.repeat(sq, w.astype(int)))
-    assert weighted.details["intensity"] == pytest.approx(
-        repeated.details["intensity"], rel=1e-13
+    assert weighted.details.intensity == pytest.approx(
+        repeated.details.intensity, rel=1e-13
     )
     for target in ("identity", "diagonal", "constant-correlation"):
         a = _intensity(Xc, n, target, "ledoit-wolf", weights=w)

@@ -154,7 +154,7 @@ def test_worked_values(q, top, ell, c2, expected):
             eigenvalues, n_samples, n_features, loss=loss, noise_variance=1.0
         )
         assert result.values[0] == pytest.approx(value, rel=1e-9), loss
-        inversion = result.details["inversion"]
+        inversion = result.details.inversion
         assert inversion.spikes[0] == pytest.approx(ell, rel=1e-9)
         assert inversion.overlaps[0] == pytest.approx(c2, rel=1e-9)
         assert SPIKE_SHRINKERS[loss](ell, c2) == pytest.approx(value, rel=1e-9)
@@ -211,10 +211,10 @@ def test_bulk_and_signal_values():
     expected_top = s2 * np.array([5 * 31 / 36 + 5 / 36, 2 / 3 + 2 / 3])
     np.testing.assert_allclose(result.values[:2], expected_top, rtol=1e-12)
     np.testing.assert_array_equal(result.values[2:], s2)  # includes the edge
-    assert result.details["noise_variance"] == s2
-    assert result.details["noise_variance_method"] == "given"
-    assert result.details["loss"] == "frobenius"
-    assert result.details["bulk_edge"] == pytest.approx(edge)
+    assert result.details.noise_variance == s2
+    assert result.details.noise_variance_method == "given"
+    assert result.details.loss == "frobenius"
+    assert result.details.bulk_edge == pytest.approx(edge)
 
 
 @pytest.mark.parametrize("s2", [1.0, 2.0])
@@ -307,8 +307,8 @@ def test_noise_variance_estimate(n_samples, n_features, spikes):
         values = values[: min(n_samples, n_features)]
         for method, given in [("bulk-fit", None), ("median", "median")]:
             result = spike_shrink(values, n_samples, n_features, noise_variance=given)
-            assert result.details["noise_variance_method"] == method
-            estimates[method].append(result.details["noise_variance"])
+            assert result.details.noise_variance_method == method
+            estimates[method].append(result.details.noise_variance)
             # Tracy-Widom fluctuations put the top noise eigenvalue above the
             # edge now and then, so a false signal may be counted.
             assert result.n_signal >= len(spikes)
@@ -331,7 +331,7 @@ def test_bulk_fit_sets_aside_the_separated_eigenvalues():
     assert k == 2
     expected = fit_bulk(values, 300, 100, n_signal=2).noise_variance
     result = spike_shrink(values, 300, 100)
-    assert result.details["noise_variance"] == expected
+    assert result.details.noise_variance == expected
 
 
 def test_round_off_zeros_left_out_of_the_estimate():
@@ -343,17 +343,15 @@ def test_round_off_zeros_left_out_of_the_estimate():
     for given in (None, "median"):
         exact = spike_shrink(values, 200, 100, noise_variance=given)
         rounded = spike_shrink(with_round_off, 200, 100, noise_variance=given)
-        s2 = exact.details["noise_variance"]
-        assert rounded.details["noise_variance"] == s2
+        s2 = exact.details.noise_variance
+        assert rounded.details.noise_variance == s2
         np.testing.assert_array_equal(exact.values[60:], s2)
     median, k = _median_noise_variance(values[:60], 200, 100)
     assert (
-        spike_shrink(values, 200, 100, noise_variance="median").details[
-            "noise_variance"
-        ]
+        spike_shrink(values, 200, 100, noise_variance="median").details.noise_variance
         == median
     )
-    assert spike_shrink(values, 200, 100).details["noise_variance"] == (
+    assert spike_shrink(values, 200, 100).details.noise_variance == (
         fit_bulk(values[:60], 200, 100, n_signal=k).noise_variance
     )
 
@@ -371,7 +369,7 @@ def test_tiny_spectrum_keeps_the_median():
     values = np.array([2.0, 1.0])
     result = spike_shrink(values, 20, 2)
     median, _ = _median_noise_variance(values, 20, 2)
-    assert result.details["noise_variance"] == median
+    assert result.details.noise_variance == median
     assert spike_shrink(np.array([4.0]), 10, 1).values[0] == pytest.approx(
         4.0 / _marchenko_pastur_median(0.1)
     )

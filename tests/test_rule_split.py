@@ -56,7 +56,7 @@ def test_time_ordered_single_split_matches_direct_formula(data):
     res = split_shrink(X, train_size=20, n_splits=1, shuffle=False)
     np.testing.assert_allclose(res.values, np.diag(U.T @ got @ U), atol=1e-12)
     assert res.null_value is None
-    assert res.details["train_size"] == 20
+    assert res.details.train_size == 20
 
 
 def test_random_splits_match_direct_average(data):
@@ -128,7 +128,7 @@ def test_small_samples_hold_out_one_row(T):
     got = split_covariance(X, random_state=0)
     np.testing.assert_allclose(got, _naive_leave_one_out(X), atol=1e-12)
     res = split_shrink(X, random_state=0)
-    assert res.details["train_size"] == T - 1 and res.details["n_splits"] == T
+    assert res.details.train_size == T - 1 and res.details.n_splits == T
     assert np.all(res.values > 0)
     assert res.null_value is None if T > 5 else res.null_value > 0
 
@@ -153,11 +153,11 @@ def test_held_out_row_is_unbiased():
 def test_fraction_adapts_integer_does_not(data):
     _, X = data
     # A fraction keeps 2 train rows and at most T - 1 of them.
-    assert split_shrink(X[:4], train_size=0.1).details["train_size"] == 2
-    assert split_shrink(X[:12], train_size=0.99).details["train_size"] == 11
+    assert split_shrink(X[:4], train_size=0.1).details.train_size == 2
+    assert split_shrink(X[:12], train_size=0.99).details.train_size == 11
     # Time-ordered splits: a fraction caps n_splits at the m + 1 distinct ones.
     res = split_shrink(X[:10], shuffle=False)
-    assert res.details["n_splits"] == 9
+    assert res.details.n_splits == 9
     with pytest.raises(ValueError, match="must leave at least 2 rows"):
         split_shrink(X[:10], train_size=9)
 
@@ -328,12 +328,12 @@ def test_auto_train_size_uses_lam_grid_and_criterion(data):
     # from memory; direct evaluation with M = 1, time-ordered.
     _, X = data
     res = split_shrink(X, train_size="auto", n_splits=1, shuffle=False)
-    criteria = res.details["train_size_criterion"]
+    criteria = res.details.train_size_criterion
     np.testing.assert_array_equal(sorted(criteria), _train_size_grid(30, 2))
     for m, value in criteria.items():
         gap = _naive_split(X[:m], X[m:]) - np.cov(X[m:], rowvar=False)
         assert value == pytest.approx(np.sum(gap**2), rel=1e-10)
-    assert res.details["train_size"] == min(criteria, key=criteria.get)
+    assert res.details.train_size == min(criteria, key=criteria.get)
 
 
 def test_grid_values():

@@ -89,7 +89,7 @@ def test_equals_direct_evaluation(rng, T, N, regularize, preserve_trace):
         width="uniform",
     )
     eta = N**-0.5 * lam.sum() / N  # default eta in units of tr(S)/N
-    assert out.details["eta"] == pytest.approx(eta, rel=1e-15)
+    assert out.details.eta == pytest.approx(eta, rel=1e-15)
     xi, null = _direct_rie(lam, n, N, eta, regularize, preserve_trace)
     np.testing.assert_allclose(out.values, xi, rtol=1e-10)
     if N > n:
@@ -176,7 +176,7 @@ def test_ratio_one_is_finite(rng):
     lam, n = _spectrum(rng, 101, 100)
     out = stieltjes_shrink(lam, n, 100)
     assert np.all(np.isfinite(out.values)) and np.all(out.values > 0)
-    assert out.details["noise_variance"] <= lam.sum() / 100
+    assert out.details.noise_variance <= lam.sum() / 100
 
 
 def test_validation_messages():
@@ -204,7 +204,7 @@ def test_relative_width_equals_direct_evaluation(rng, T, N, regularize):
     # Same formula at z_i = lambda_i (1 - i eta) [computed: naive loops].
     lam, n = _spectrum(rng, T, N)
     out = stieltjes_shrink(lam, n, N, regularize=regularize)
-    assert out.details["width"] == "relative"
+    assert out.details.width == "relative"
     eta = N**-0.5 * lam.sum() / N
     xi, null = _direct_rie(lam, n, N, eta, regularize, True, relative=True)
     np.testing.assert_allclose(out.values, xi, rtol=1e-10)
@@ -350,7 +350,7 @@ def test_far_from_the_hard_edge_the_width_is_eta_lambda(rng, T, N):
     # eta lambda_i (the relative width as before) [computed: naive loops].
     lam, n = _spectrum(rng, T, N)
     out = stieltjes_shrink(lam, n, N, regularize=False)
-    assert out.details["hard_edge_weight"] == 0.0
+    assert out.details.hard_edge_weight == 0.0
     eta = N**-0.5 * lam.sum() / N
     lam_l = [float(v) for v in lam]
     q, m = N / n, len(lam_l)
@@ -361,7 +361,7 @@ def test_far_from_the_hard_edge_the_width_is_eta_lambda(rng, T, N):
         xi.append(li / abs(1 - q + q * z * g) ** 2)
     ref, _ = _direct_rie(lam, n, N, eta, False, True, relative=True)
     np.testing.assert_allclose(
-        out.values, np.array(xi) * out.details["trace_factor"], rtol=1e-10
+        out.values, np.array(xi) * out.details.trace_factor, rtol=1e-10
     )
     np.testing.assert_allclose(out.values, ref, rtol=1e-10)
 
@@ -369,10 +369,9 @@ def test_far_from_the_hard_edge_the_width_is_eta_lambda(rng, T, N):
 def test_hard_edge_weight_is_one_at_ratio_one(rng):
     lam, n = _spectrum(rng, 101, 100)
     out = stieltjes_shrink(lam, n, 100)
-    assert out.details["hard_edge_weight"] == 1.0
+    assert out.details.hard_edge_weight == 1.0
     assert (
-        stieltjes_shrink(lam, n, 100, width="uniform").details["hard_edge_weight"]
-        == 0.0
+        stieltjes_shrink(lam, n, 100, width="uniform").details.hard_edge_weight == 0.0
     )
 
 

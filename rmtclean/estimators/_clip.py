@@ -152,7 +152,7 @@ class EigenClip(OneBulkValue, SpectralCovariance):
             n_keep=self.n_keep,
             alpha=self.alpha,
         )
-        self.edge_ = out.details["edge"]
-        self.bulk_mean_ = out.details["bulk_mean"]
-        self.noise_variance_ = out.details.get("noise_variance")
+        self.edge_ = out.details.edge
+        self.bulk_mean_ = out.details.bulk_mean
+        self.noise_variance_ = out.details.noise_variance
         return out

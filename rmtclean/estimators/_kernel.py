@@ -275,8 +275,8 @@ class KernelShrink(SpectralCovariance):
         out = _kernel_shrink(
             vals, n, p, bandwidth=h, formula=self.formula, n_jobs=self.n_jobs
         )
-        self.bandwidth_ = out.details["bandwidth"]
-        self.n_floored_ = out.details["n_floored"]
+        self.bandwidth_ = out.details.bandwidth
+        self.n_floored_ = out.details.n_floored
         out = expand_zeros(out, k, p)
         tau = plateau_phase(p / n)
         if cross_validated and tau > 0.0:

@@ -335,10 +335,10 @@ class LinearShrink(SpectralCovariance):
             out = _linear_shrink(
                 vals * (dof / n), n, p, intensity=self.intensity, **kwargs
             )
-            if singular and out.details["intensity"] == 0.0:
+            if singular and out.details.intensity == 0.0:
                 out = _linear_shrink(vals * (dof / n), n, p, intensity="oas", **kwargs)
                 self._warn_singular("the OAS intensity (Chen et al. 2010, eq. 23)")
-            self.shrinkage_ = out.details["intensity"]
+            self.shrinkage_ = out.details.intensity
             return CleanedEigenvalues(out.values, null_value=out.null_value)
         self.shrinkage_, S, cov = self._shrunk(Xc, w, n)
         if singular and self.shrinkage_ == 0.0:

@@ -168,6 +168,6 @@ class SpikeShrink(OneBulkValue, SpectralCovariance):
             loss=self.loss,
             noise_variance=self.noise_variance,
         )
-        self.noise_variance_ = out.details["noise_variance"]
-        self.spike_inversion_ = out.details["inversion"]
+        self.noise_variance_ = out.details.noise_variance
+        self.spike_inversion_ = out.details.inversion
         return out

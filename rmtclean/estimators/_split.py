@@ -184,6 +184,6 @@ class SplitShrink(SpectralCovariance):
         values, null_value = _pool_ties(
             values, null_value, spectrum.eigenvalues, spectrum.n_features
         )
-        self.train_size_ = int(details["train_size"])
-        self.train_size_criterion_ = details.get("train_size_criterion")
+        self.train_size_ = int(details.train_size)
+        self.train_size_criterion_ = details.train_size_criterion
         return CleanedEigenvalues(values, null_value, None, details)

@@ -169,6 +169,6 @@ class StieltjesShrink(SpectralCovariance):
             width=self.width,
             n_jobs=self.n_jobs,
         )
-        self.eta_ = out.details["eta"]
-        self.noise_variance_ = out.details["noise_variance"]
+        self.eta_ = out.details.eta
+        self.noise_variance_ = out.details.noise_variance
         return _expand(out, k, p)

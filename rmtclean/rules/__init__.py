@@ -25,18 +25,32 @@ from rmtclean.rules._tyler import (
     spatial_signs,
     tyler_shape,
 )
-from rmtclean.rules._types import CleanedEigenvalues
+from rmtclean.rules._types import (
+    CleanedEigenvalues,
+    ClipDetails,
+    KernelDetails,
+    LinearDetails,
+    SpikeDetails,
+    SplitDetails,
+    StieltjesDetails,
+)
 
 __all__ = [
     "CleanedEigenvalues",
+    "ClipDetails",
     "INTENSITY_METHODS",
     "KERNEL_ENGINES",
     "KERNEL_FORMULAS",
+    "KernelDetails",
+    "LinearDetails",
     "NULL_SPACE_METHODS",
     "SHAPE_ROUTES",
     "SHRINKAGE_TARGETS",
     "SPIKE_SHRINKERS",
     "STIELTJES_ENGINES",
+    "SpikeDetails",
+    "SplitDetails",
+    "StieltjesDetails",
     "TylerShape",
     "chen_wiesel_hero_intensity",
     "eigen_clip",

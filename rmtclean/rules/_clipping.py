@@ -9,7 +9,7 @@ from numbers import Integral
 import numpy as np
 
 from rmtclean.exceptions import WeakEstimateWarning
-from rmtclean.rules._types import CleanedEigenvalues
+from rmtclean.rules._types import CleanedEigenvalues, ClipDetails
 from rmtclean.spectrum._bulk import (
     _check_eigenvalues,
     _check_sizes,
@@ -95,7 +95,7 @@ def _eigen_clip(values, n_samples, n_features, edge, n_keep, alpha):
         values=cleaned,
         null_value=mean if n_null > 0 else None,
         n_signal=int(k),
-        details=details,
+        details=ClipDetails(**details),
     )
 
 
@@ -141,7 +141,8 @@ def eigen_clip(
         ``values``: the ``n_signal`` largest eigenvalues unchanged, the others
         replaced by the mean of all the eigenvalues not kept (null space
         included); ``null_value``: that mean when ``n_features >
-        n_components``, else None; ``n_signal``; ``details`` with ``edge``,
+        n_components``, else None; ``n_signal``; ``details`` a
+        :class:`ClipDetails`: ``edge``,
         ``bulk_mean`` and, for a fitted edge, ``noise_variance``.
 
     See Also

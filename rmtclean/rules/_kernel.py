@@ -17,7 +17,7 @@ from rmtclean import _kernels
 from rmtclean._data import check_eigenvalues
 from rmtclean._validation import Interval, check_value
 from rmtclean.rules._linear import _check_choice, _linear_shrink
-from rmtclean.rules._types import CleanedEigenvalues
+from rmtclean.rules._types import CleanedEigenvalues, KernelDetails
 
 __all__ = ["KERNEL_ENGINES", "KERNEL_FORMULAS", "kernel_shrink"]
 
@@ -199,7 +199,7 @@ def _kernel_shrink(
     if formula == "stabilized":
         d, d0, details["n_floored"] = _hard_edge_floor(d, d0, p / n, h)
     null = d0 if vals.size < p else None
-    return CleanedEigenvalues(d, null_value=null, n_signal=None, details=details)
+    return CleanedEigenvalues(d, null, None, KernelDetails(**details))
 
 
 _POSITIVE_FINITE = Interval(float, 0.0, math.inf, closed="neither")
@@ -276,9 +276,9 @@ def kernel_shrink(
     CleanedEigenvalues
         ``values`` in the input order; ``null_value`` the common value
         ``d0`` of the ``p - n`` null directions when ``n_components <
-        n_features``; ``details`` with ``"bandwidth"``, ``"formula"``,
-        ``"ratio"``, ``"n_floored"`` and ``"null_method"`` (``"closed-form"``
-        or ``"oas"``, see the Notes).
+        n_features``; ``details`` a :class:`KernelDetails` (``bandwidth``,
+        ``formula``, ``ratio``, ``n_floored`` and ``null_method``:
+        ``"closed-form"`` or ``"oas"``, see the Notes).
 
     Raises
     ------
@@ -314,7 +314,7 @@ def kernel_shrink(
     own code states ``n >= 12``). Below, the non-null values keep the formula
     above and the null directions get the value of OAS linear shrinkage,
     ``d0 = rho tr(S)/p`` with Chen et al.'s (2010) [2]_ eq. (23) intensity
-    ``rho`` (``details["null_method"] = "oas"``). The choice was measured
+    ``rho`` (``details.null_method == "oas"``). The choice was measured
     by held-out Gaussian likelihood on the dslabs tissue expression panel
     (185 x 500; 16 random training draws of T = 4, 6, 8, 10, 12 rows, the
     other rows held out): the null value decides the likelihood (``p - n``
@@ -336,7 +336,7 @@ def kernel_shrink(
     raised to at least ``tau`` times the median of ``d`` over the ``2k``
     eigenvalues just above them, ``tau = 1 - |c - 1|/0.2``: continuous in
     ``c``, and exactly the published formula for ``|c - 1| >= 0.2``
-    (``details["n_floored"]`` counts the values raised). Evidence (N = 150,
+    (``details.n_floored`` counts the values raised). Evidence (N = 150,
     40 draws, Gaussian and t5 data, paired against sklearn's LedoitWolf on
     the same draws): at ``c = 1`` the floor removes the breakdown of the
     published formula in minimum-variance loss (mixture design: 154 -> 1.86,

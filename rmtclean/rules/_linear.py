@@ -32,7 +32,7 @@ import numpy as np
 
 from rmtclean._data import check_data, check_eigenvalues
 from rmtclean._validation import Interval, Options, check_sample_weight, check_value
-from rmtclean.rules._types import CleanedEigenvalues
+from rmtclean.rules._types import CleanedEigenvalues, LinearDetails
 from rmtclean.spectrum._sample import column_scale
 
 __all__ = [
@@ -293,8 +293,9 @@ def linear_shrink(
     -------
     CleanedEigenvalues
         ``values`` (same order as the input), ``null_value`` (``delta mu``
-        when ``n_components < n_features``, else None) and ``details`` with
-        ``"intensity"`` (delta), ``"target"`` (mu) and ``"method"``.
+        when ``n_components < n_features``, else None) and ``details`` a
+        :class:`LinearDetails`: ``intensity`` (delta), ``target`` (mu) and
+        ``method``.
 
     See Also
     --------
@@ -426,7 +427,7 @@ def _linear_shrink(
         values,
         null_value=null,
         n_signal=None,
-        details={"intensity": delta, "target": mu, "method": method},
+        details=LinearDetails(intensity=delta, target=mu, method=method),
     )
 
 

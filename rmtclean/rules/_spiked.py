@@ -80,7 +80,7 @@ from types import MappingProxyType
 import numpy as np
 
 from rmtclean.laws import MarchenkoPastur
-from rmtclean.rules._types import CleanedEigenvalues
+from rmtclean.rules._types import CleanedEigenvalues, SpikeDetails
 from rmtclean.spectrum._bulk import _check_eigenvalues, _check_sizes, fit_bulk
 from rmtclean.spectrum._spikes import (
     SpikeInversion,
@@ -286,7 +286,8 @@ def spike_shrink(
     CleanedEigenvalues
         ``values`` in the input order; ``null_value`` is ``s2`` when
         ``n_components < n_features``, else ``None``; ``n_signal`` is the
-        number of eigenvalues above the bulk edge. ``details`` holds
+        number of eigenvalues above the bulk edge. ``details`` (a
+        :class:`SpikeDetails`) holds
         ``noise_variance``, ``noise_variance_method`` (``"given"``,
         ``"bulk-fit"`` or ``"median"``), ``loss``,
         ``bulk_edge`` and ``inversion``, the
@@ -353,7 +354,7 @@ def spike_shrink(
     >>> result = spike_shrink(eigenvalues, 400, 100, loss="stein")
     >>> result.n_signal
     1
-    >>> bool(np.all(result.values[1:] == result.details["noise_variance"]))
+    >>> bool(np.all(result.values[1:] == result.details.noise_variance))
     True
     """
     name = "spike_shrink"
@@ -384,13 +385,13 @@ def spike_shrink(
         values=cleaned,
         null_value=s2 if values.size < n_features else None,
         n_signal=n_signal,
-        details={
-            "noise_variance": s2,
-            "noise_variance_method": method,
-            "loss": loss,
-            "bulk_edge": inversion.bulk_edge,
-            "inversion": inversion,
-        },
+        details=SpikeDetails(
+            noise_variance=s2,
+            noise_variance_method=method,
+            loss=loss,
+            bulk_edge=inversion.bulk_edge,
+            inversion=inversion,
+        ),
     )
 
 

@@ -84,7 +84,7 @@ from rmtclean._validation import (
     check_sample_weight,
     check_value,
 )
-from rmtclean.rules._types import CleanedEigenvalues
+from rmtclean.rules._types import CleanedEigenvalues, SplitDetails
 from rmtclean.spectrum import SampleSpectrum
 
 __all__ = ["NULL_SPACE_METHODS", "split_covariance", "split_shrink"]
@@ -468,7 +468,7 @@ def _prepare(X, w, m, n_splits, shuffle, rng, assume_centered, null_space):
     n_splits = _n_splits(n_splits, X.shape[0], m, shuffle)
     details["n_splits"] = n_splits
     splits = _split_indices(X.shape[0], m, n_splits, shuffle, rng)
-    return splits, details
+    return splits, SplitDetails(**details)
 
 
 # -- public functions --------------------------------------------------------
@@ -535,7 +535,8 @@ def split_shrink(
         eigenvector; ``null_value`` is the mean of
         ``Sigma_{{m,M}}`` over the full-sample null space when
         ``n_components < n_features`` (trace left over, spread evenly);
-        ``n_signal`` is None; ``details`` holds ``train_size`` (rows),
+        ``n_signal`` is None; ``details`` (a :class:`SplitDetails`) holds
+        ``train_size`` (rows),
         ``n_splits``, ``shuffle``, ``null_space`` and, for ``"auto"``,
         ``train_size_criterion`` (grid point -> criterion).
 

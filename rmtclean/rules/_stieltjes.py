@@ -17,7 +17,7 @@ from rmtclean._validation import BOOLEAN, check_value
 from rmtclean.laws import MarchenkoPastur
 from rmtclean.rules._kernel import _POSITIVE_FINITE, _check_spectrum
 from rmtclean.rules._linear import _check_choice
-from rmtclean.rules._types import CleanedEigenvalues
+from rmtclean.rules._types import CleanedEigenvalues, StieltjesDetails
 
 __all__ = ["STIELTJES_ENGINES", "stieltjes_shrink"]
 
@@ -129,9 +129,7 @@ def _stieltjes_shrink(
         null = None if null is None else null * factor
         details["trace_factor"] = factor
     null = None if null is None else null * unit
-    return CleanedEigenvalues(
-        xi * unit, null_value=null, n_signal=None, details=details
-    )
+    return CleanedEigenvalues(xi * unit, null, None, StieltjesDetails(**details))
 
 
 def stieltjes_shrink(
@@ -188,12 +186,12 @@ def stieltjes_shrink(
     CleanedEigenvalues
         ``values`` in the input order; ``null_value`` for the ``N - T``
         null directions when ``n_components < n_features``; ``details``
-        with ``"eta"`` (``eta tr(S)/N``: the absolute distance for
-        ``"uniform"``, the distance at an eigenvalue equal to the mean for
-        ``"relative"``), ``"width"``, ``"ratio"``, ``"noise_variance"`` (the
-        ``sigma^2`` of the regularisation), ``"hard_edge_weight"`` (the
-        ``tau`` of the width floor, 0 for ``"uniform"``) and
-        ``"trace_factor"``.
+        a :class:`StieltjesDetails`: ``eta`` (``eta tr(S)/N``: the absolute
+        distance for ``"uniform"``, the distance at an eigenvalue equal to
+        the mean for ``"relative"``), ``width``, ``ratio``,
+        ``noise_variance`` (the ``sigma^2`` of the regularisation),
+        ``hard_edge_weight`` (the ``tau`` of the width floor, 0 for
+        ``"uniform"``) and ``trace_factor``.
 
     Notes
     -----
