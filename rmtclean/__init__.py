@@ -9,6 +9,7 @@ used.
 __version__ = "0.1.0"
 
 __all__ = [
+    "AutoShrink",
     "CleanedEigenvalues",
     "CleanedSpectrum",
     "EigenClip",

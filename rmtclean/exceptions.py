@@ -1,6 +1,7 @@
 """Warning and error classes of rmtclean."""
 
 __all__ = [
+    "CandidateFailedWarning",
     "InvalidParameterError",
     "NotConvergedWarning",
     "RankDeficientWarning",
@@ -18,6 +19,10 @@ class RankDeficientWarning(UserWarning):
 
 class NotConvergedWarning(UserWarning):
     """An iteration stopped at its limit before reaching its tolerance."""
+
+
+class CandidateFailedWarning(UserWarning):
+    """A candidate cleaner failed on a fold of AutoShrink and scored -inf there."""
 
 
 class InvalidParameterError(ValueError, TypeError):

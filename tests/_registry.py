@@ -47,6 +47,7 @@ import numpy as np
 import rmtclean
 from rmtclean.estimators import (
     CLEANERS,
+    AutoShrink,
     EigenClip,
     LinearShrink,
     SpectralCovariance,
@@ -135,6 +136,8 @@ _KNOWN = {
     LinearShrink: {"closed_form": True, "warns_rank_deficient": False},
     SplitShrink: {"semidefinite": True, "closed_form": True},
     EigenClip: {"trace_preserving": True},
+    # It may choose SplitShrink, positive semi-definite only.
+    AutoShrink: {"semidefinite": True},
 }
 _VARIANTS = {
     TylerShrink: [{"params": {"rule": "fixed-point"}}],

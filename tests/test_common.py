@@ -9,7 +9,7 @@ import pytest
 from sklearn.utils.estimator_checks import parametrize_with_checks
 
 import rmtclean
-from rmtclean.estimators import CLEANERS, SplitShrink
+from rmtclean.estimators import CLEANERS, AutoShrink, SplitShrink
 
 ESTIMATOR_NAMES = [entry.name for entry in CLEANERS]
 
@@ -30,6 +30,14 @@ def _expected_failures(estimator):
         return {
             "check_sample_weight_equivalence_on_dense_data": (
                 "random row splits treat a repeated row and a weight of 2 differently"
+            ),
+        }
+    # Contiguous folds cut the rows: repeating a row moves the fold borders,
+    # which a weight of 2 does not (both are valid held-out choices).
+    if isinstance(estimator, AutoShrink):
+        return {
+            "check_sample_weight_equivalence_on_dense_data": (
+                "repeated rows move the borders of the contiguous folds"
             ),
         }
     return {}

@@ -8,6 +8,7 @@ compiled kernels.
 from rmtclean.estimators._registry import CLEANERS, CleanerEntry, find_cleaner
 
 __all__ = [
+    "AutoShrink",
     "CLEANERS",
     "CleanerEntry",
     "EigenClip",

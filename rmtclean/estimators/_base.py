@@ -214,20 +214,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         if self._missing_method() != "error" and np.isnan(X).any():
             self._refuse_vol_scaling(f"missing={self.missing!r} with NaN entries")
             return self._fit_missing(X, sample_weight)
-        sample_weight = self._fit_weights(sample_weight, X.shape[0])
-        if getattr(self, "vol_half_life", None) is not None:
-            spectrum, volatility = self._devolatilised_spectrum(X, sample_weight)
-        else:
-            volatility = None
-            spectrum = SampleSpectrum.from_data(
-                X,
-                assume_centered=self.assume_centered,
-                sample_weight=sample_weight,
-                standardize=self.standardize,
-                route=self.route,
-                keep_samples=self._needs_samples,
-                **self._spectrum_options(),
-            )
+        spectrum, volatility = self._fit_spectrum(X, sample_weight)
         self._warn_if_weak(spectrum)
         self._store(spectrum, self._clean(spectrum), X.dtype)
         self.volatility_ = volatility
@@ -241,7 +228,42 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
                 f"Got vol_half_life={self.vol_half_life!r}."
             )
 
-    def _devolatilised_spectrum(self, X, sample_weight):
+    def _fit_spectrum(self, X, sample_weight, keep_samples=None, options=None):
+        """The sample spectrum a fit cleans, and the volatility forecast.
+
+        ``X`` are validated rows and ``sample_weight`` the caller's
+        frequency weights (the half-life decay is applied here).
+        ``keep_samples`` (default: whether the rule needs the rows) keeps
+        the centred rows; ``options`` (default: :meth:`_spectrum_options`)
+        go to :meth:`SampleSpectrum.from_data`. AutoShrink calls it on each
+        fold, once for all the cleaners whose spectrum parameters agree,
+        with every eigenvector.
+
+        Returns
+        -------
+        spectrum : SampleSpectrum
+        volatility : ndarray of shape (n_features,) or None
+            The forecast with ``vol_half_life``, else None.
+        """
+        if keep_samples is None:
+            keep_samples = self._needs_samples
+        if options is None:
+            options = self._spectrum_options()
+        sample_weight = self._fit_weights(sample_weight, X.shape[0])
+        if getattr(self, "vol_half_life", None) is not None:
+            return self._devolatilised_spectrum(X, sample_weight, keep_samples, options)
+        spectrum = SampleSpectrum.from_data(
+            X,
+            assume_centered=self.assume_centered,
+            sample_weight=sample_weight,
+            standardize=self.standardize,
+            route=self.route,
+            keep_samples=keep_samples,
+            **options,
+        )
+        return spectrum, None
+
+    def _devolatilised_spectrum(self, X, sample_weight, keep_samples, options):
         """The spectrum of the correlation of the EWMA-devolatilised series.
 
         Returns the spectrum (location: the column means of ``X``; scale: the
@@ -266,8 +288,8 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
             sample_weight=sample_weight,
             standardize=True,
             route=self.route,
-            keep_samples=self._needs_samples,
-            **self._spectrum_options(),
+            keep_samples=keep_samples,
+            **options,
         )
         spectrum = replace(spectrum, location=location, scale=vol.forecast)
         return spectrum, vol.forecast

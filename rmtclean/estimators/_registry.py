@@ -125,6 +125,13 @@ CLEANERS: tuple[CleanerEntry, ...] = (
         "Tyler's fixed point (Chen et al. 2011)",
         takes_missing=False,
     ),
+    CleanerEntry(
+        "AutoShrink",
+        "auto",
+        "rmtclean.estimators._auto",
+        "the cleaner chosen by held-out score (cross-validation)",
+        takes_missing=False,
+    ),
 )
 
 

@@ -19,6 +19,10 @@ from rmtclean.laws._common import (
 
 __all__ = ["MarchenkoPastur"]
 
+#: 8-point Gauss-Legendre nodes and weights of the edge quadratures (computed
+#: once: numpy builds them from an eigenproblem on every call).
+_GAUSS8 = np.polynomial.legendre.leggauss(8)
+
 
 @dataclass(frozen=True)
 class MarchenkoPastur(InverseSampling):
@@ -179,7 +183,7 @@ class MarchenkoPastur(InverseSampling):
             - 2.0 * sqrt_ab * np.arctan2(sa * np.sin(theta / 2), sb * np.cos(theta / 2))
         )
         r = 0.5 * (b - a)
-        nodes, weights = np.polynomial.legendre.leggauss(8)
+        nodes, weights = _GAUSS8
         near = theta < 0.1  # there the closed form loses eps / theta^2 relative
         if np.any(near):
             th = theta[near][..., None]

@@ -1,0 +1,535 @@
+"""AutoShrink: the cleaner (or the blend of cleaners) chosen by held-out score."""
+
+from __future__ import annotations
+
+import numbers
+import warnings
+
+import numpy as np
+from joblib import Parallel, delayed
+from sklearn.base import clone
+from sklearn.model_selection import KFold, check_cv
+
+from rmtclean._validation import (
+    CALLABLE,
+    RANDOM_STATE,
+    Interval,
+    Options,
+    _Special,
+    check_params,
+    check_sample_weight,
+)
+from rmtclean.distributed import is_dask_array
+from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.estimators._folds import (
+    FoldResult,
+    common_names,
+    cv_results,
+    evaluate_fold,
+    in_sample_basis,
+    spectrum_groups,
+)
+from rmtclean.estimators._registry import CLEANERS, find_cleaner
+from rmtclean.exceptions import CandidateFailedWarning
+from rmtclean.rules._selection import (
+    SCORINGS,
+    blend_weights,
+    heldout_score,
+)
+from rmtclean.rules._types import CleanedEigenvalues
+
+__all__ = ["AutoShrink"]
+
+#: The fitted attributes of the estimator contract, read from the winner.
+_DELEGATED = (
+    "location_",
+    "covariance_",
+    "spectrum_",
+    "sample_eigenvalues_",
+    "eigenvalues_",
+    "eigenvectors_",
+    "n_signal_",
+    "scale_",
+    "degrees_of_freedom_",
+    "volatility_",
+)
+
+_DOC = r"""The cleaner chosen by its held-out score, or a blend of cleaners.
+
+    No single rule is best everywhere: spiked-model shrinkers win when a few
+    factors stand above flat noise, nonlinear rules when the population
+    spectrum is spread. AutoShrink scores each candidate on held-out folds
+    of the rows and keeps the best one (``combine="select"``), refitted on
+    all rows, or a convex combination of their cleaned eigenvalues
+    (``combine="blend"``). The choice and the scores are kept in
+    ``best_estimator_`` and ``cv_results_``.
+
+    Parameters
+    ----------
+    candidates : list of estimators or str, default=None
+        The cleaners to choose from: rmtclean estimators (cloned, used with
+        their own parameters) or short names such as ``"kernel"`` or
+        ``"spike"`` (see :data:`rmtclean.estimators.CLEANERS`). ``None`` is
+        every cleaner of the registry but AutoShrink, with default settings.
+        Cleaners built from names get AutoShrink's common parameters below
+        and its ``random_state``.
+    cv : int, cross-validation splitter or iterable, default=5
+        The folds. An int ``K`` cuts the rows into ``K`` contiguous blocks in
+        row order (no shuffling, so time series stay in order; with fewer
+        rows than ``K``, one block per row); a scikit-learn splitter
+        (e.g. ``TimeSeriesSplit``) or an iterable of ``(train, test)`` index
+        arrays is used as given.
+    scoring : {"loglik", "min-variance"} or callable, default="loglik"
+        The held-out score (greater is better). ``"loglik"``: the mean
+        Gaussian log-likelihood of the held-out rows (``score``);
+        ``"min-variance"``: minus the realised variance of the
+        minimum-variance portfolio on the held-out rows
+        (:func:`rmtclean.metrics.minimum_variance_scorer`); a callable
+        ``scoring(estimator, X_test) -> float`` receives each candidate
+        fitted on the training rows.
+    combine : {"select", "blend"}, default="select"
+        ``"select"`` keeps the candidate with the best mean score and refits
+        it on all rows; ``"blend"`` uses ``sum_j w_j d_j``, the convex
+        combination of the candidates' cleaned eigenvalues ``d_j`` in the
+        common sample eigenbasis whose weights have the best mean held-out
+        score (see Notes). The candidates must share one spectrum (the same
+        common parameters); one with its own eigenvectors (TylerShrink,
+        LinearShrink with a non-identity target) enters through its
+        variances along the sample eigenvectors.
+    n_jobs : int or None, default=None
+        Folds evaluated in parallel (joblib); ``None`` means one.
+    random_state : None, int, numpy Generator or RandomState, default=None
+        Passed to the candidates built from names that take one (SplitShrink's
+        random splits). A Generator or RandomState is drawn from once per fit.
+%(common)s
+    Attributes
+    ----------
+    best_estimator_ : estimator
+        The chosen candidate refitted on all rows (with ``combine="blend"``,
+        the candidate of largest weight, refitted).
+    best_index_ : int
+        Its index in ``cv_results_``.
+    best_score_ : float
+        Its mean held-out score.
+    cv_results_ : dict of ndarray
+        scikit-learn's layout, one entry per candidate: ``"candidate"`` and
+        ``"param_candidate"`` (names), ``"params"`` (``{"candidate": name}``),
+        ``"split<k>_test_score"``, ``"mean_test_score"``,
+        ``"std_test_score"``, ``"rank_test_score"`` (1 is best; scores within
+        a relative 1e-10 tie), ``"mean_fit_time"``, ``"std_fit_time"``
+        (the fold's shared decomposition plus the candidate's rule, seconds)
+        and ``"mean_score_time"``, ``"std_score_time"``. A candidate that
+        fails on a fold scores ``-inf`` there.
+    weights_ : ndarray of shape (n_candidates,)
+        The weight of each candidate in the fitted covariance: one-hot for
+        ``"select"``.
+    blend_score_ : float or None
+        With ``"blend"``: the mean held-out score of the blend on the folds
+        its weights were fitted on (optimistic; at least ``best_score_``).
+    candidates_ : list of estimators
+        The candidates as scored (unfitted).
+    n_splits_ : int
+        Number of folds.
+    covariance_ : ndarray of shape (n_features, n_features) or None
+        The cleaned covariance (None when not stored densely).
+    precision_ : ndarray of shape (n_features, n_features) or None
+        Its inverse (when stored).
+    location_ : ndarray of shape (n_features,)
+        The column means (zeros when ``assume_centered``).
+    spectrum_ : CleanedSpectrum
+        The cleaned covariance in spectral form.
+    sample_eigenvalues_ : ndarray of shape (n_features,)
+        Descending sample eigenvalues, the null space's zeros last.
+    eigenvalues_ : ndarray of shape (n_features,)
+        The cleaned eigenvalues, paired with ``sample_eigenvalues_``.
+    eigenvectors_ : ndarray of shape (n_features, n_components)
+    n_signal_ : int or None
+        The winner's (None for a blend).
+    scale_ : ndarray of shape (n_features,) or None
+    degrees_of_freedom_ : float
+    volatility_ : ndarray of shape (n_features,) or None
+        The volatility forecast with ``vol_half_life``.
+    n_features_in_ : int
+    feature_names_in_ : ndarray of shape (n_features_in_,)
+
+    See Also
+    --------
+    rmtclean.estimators.CLEANERS : the default candidates.
+    sklearn.model_selection.GridSearchCV : the same choice by refitting each
+        candidate on each fold (AutoShrink shares the decomposition).
+
+    Notes
+    -----
+    **Shared decompositions.** Every rotation-invariant cleaner of a
+    training part keeps its sample eigenvectors ``V``; the held-out rows are
+    summarised once per fold (``o_i = mean_t (u_i' y_t)^2`` and the null
+    space's share) and each candidate's log-likelihood is then an O(r) sum,
+
+    .. math:: -\tfrac12\Big[N\log 2\pi + \sum_i\big(\log d_i + o_i/d_i\big)
+              + (N - r)\log c + o_0/c\Big].
+
+    Candidates whose common parameters agree share one eigendecomposition
+    per fold; the cost of a fit is about ``K + 2`` times the slowest
+    candidate (``K`` folds, the refit, the decomposition of all rows).
+
+    **Blending** maximises the mean held-out score over convex weights
+    (stacking, Wolpert 1992; non-negative weights summing to one, Breiman
+    1996), on eigenvalues as the cross-validated nonlinear shrinkage of
+    Bartz (2016) chooses each eigenvalue on held-out data. It helps where
+    the candidates err in opposite directions, e.g. one shrinks the top of
+    the spectrum too much and another too little (mixtures of population
+    levels near ``N/T = 1``), and where no candidate's model holds; it
+    costs a few more weights to fit, which small held-out folds estimate
+    with noise. The weights are fitted and scored on the same folds, so
+    ``blend_score_`` is optimistic.
+
+    Time-decay (``half_life``) weights each training part as a contiguous
+    series. ``sample_weight`` weights the training rows; held-out rows
+    count equally. Dask arrays and missing data are not supported (the
+    folds need the rows).
+
+    References
+    ----------
+    .. [1] D. H. Wolpert, "Stacked generalization", Neural Networks 5(2),
+       241-259, 1992.
+    .. [2] L. Breiman, "Stacked regressions", Machine Learning 24(1), 49-64,
+       1996.
+    .. [3] D. Bartz, "Cross-validation based nonlinear shrinkage",
+       arXiv:1611.00798, 2016.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from rmtclean.estimators import AutoShrink
+    >>> rng = np.random.default_rng(0)
+    >>> X = rng.standard_normal((200, 40)) * np.r_[6.0, 4.0, np.ones(38)]
+    >>> est = AutoShrink(candidates=["spike", "linear"]).fit(X)
+    >>> type(est.best_estimator_).__name__
+    'SpikeShrink'
+    >>> est.cv_results_["rank_test_score"].tolist()
+    [1, 2]
+    """
+
+_CANDIDATES = _Special(
+    "a non-empty list of rmtclean estimators or short names",
+    lambda v: isinstance(v, (list, tuple)) and len(v) > 0,
+)
+_SPLITTER = _Special(
+    "a cross-validation splitter or an iterable of (train, test) pairs",
+    lambda v: (
+        hasattr(v, "split") or (hasattr(v, "__iter__") and not isinstance(v, str))
+    ),
+)
+
+
+class AutoShrink(SpectralCovariance):
+    __doc__ = _DOC.replace(
+        "%(common)s", common_params_doc(exclude=("missing",)).rstrip("\n") + "\n"
+    )
+
+    _parameter_specs: dict = {
+        "candidates": [None, _CANDIDATES],
+        "cv": [Interval(int, 2, None), _SPLITTER],
+        "scoring": [Options(SCORINGS), CALLABLE],
+        "combine": [Options({"select", "blend"})],
+        "n_jobs": [None, Interval(int, -1, -1), Interval(int, 1, None)],
+        "random_state": [RANDOM_STATE],
+    }
+    # The folds need the data rows: no dask arrays.
+    _needs_samples = True
+
+    def __init__(
+        self,
+        *,
+        candidates=None,
+        cv=5,
+        scoring="loglik",
+        combine="select",
+        n_jobs=None,
+        random_state=None,
+        store_precision=True,
+        assume_centered=False,
+        standardize=False,
+        route="auto",
+        store_covariance="auto",
+        half_life=None,
+        vol_half_life=None,
+    ):
+        super().__init__(
+            store_precision=store_precision,
+            assume_centered=assume_centered,
+            standardize=standardize,
+            route=route,
+            store_covariance=store_covariance,
+            half_life=half_life,
+            vol_half_life=vol_half_life,
+        )
+        self.candidates = candidates
+        self.cv = cv
+        self.scoring = scoring
+        self.combine = combine
+        self.n_jobs = n_jobs
+        self.random_state = random_state
+
+    # -- candidates -------------------------------------------------------
+    def _candidate_seed(self):
+        rs = self.random_state
+        if isinstance(rs, np.random.Generator):
+            return int(rs.integers(2**31 - 1))
+        if isinstance(rs, np.random.RandomState):
+            return int(rs.randint(2**31 - 1))
+        return rs
+
+    def _from_class(self, cls, seed):
+        accepted = cls().get_params(deep=False)
+        params = {
+            name: value
+            for name, value in self.get_params(deep=False).items()
+            if name in accepted and name in common_names()
+        }
+        if "random_state" in accepted:
+            params["random_state"] = seed
+        return cls(**params)
+
+    def _resolve_candidates(self, seed) -> tuple[list, list[str]]:
+
+        owner = type(self).__name__
+        if self.candidates is None:
+            entries = [e for e in CLEANERS if not issubclass(e.cls, AutoShrink)]
+            ests = [self._from_class(e.cls, seed) for e in entries]
+            return ests, [e.name for e in entries]
+        ests, names = [], []
+        for item in self.candidates:
+            if isinstance(item, str):
+                try:
+                    entry = find_cleaner(item)
+                except ValueError as exc:
+                    raise ValueError(
+                        f"The 'candidates' parameter of {owner}: {exc}"
+                    ) from exc
+                cls, name = entry.cls, entry.name
+                if issubclass(cls, AutoShrink):
+                    raise ValueError(
+                        f"The 'candidates' parameter of {owner} cannot hold "
+                        f"{owner} itself. Got {item!r}."
+                    )
+                ests.append(self._from_class(cls, seed))
+                names.append(name)
+            elif isinstance(item, SpectralCovariance) and not isinstance(
+                item, AutoShrink
+            ):
+                ests.append(clone(item))
+                names.append(type(item).__name__)
+            else:
+                raise ValueError(
+                    f"The 'candidates' parameter of {owner} must list rmtclean "
+                    "estimators (other than AutoShrink) or short names. Got "
+                    f"{item!r} instead."
+                )
+        # Two candidates of one class are told apart by their parameters.
+        for i, name in enumerate(names):
+            if names.count(name) > 1 and not isinstance(self.candidates[i], str):
+                names[i] = repr(ests[i])
+        for name in set(names):
+            if names.count(name) > 1:
+                raise ValueError(
+                    f"The 'candidates' parameter of {owner} lists {name!r} "
+                    "more than once."
+                )
+        return ests, names
+
+    # -- folds ------------------------------------------------------------
+    def _splits(self, X) -> list:
+        n_rows = X.shape[0]
+        cv = self.cv
+        if isinstance(cv, numbers.Integral):
+            cv = KFold(n_splits=min(int(cv), n_rows))
+        splits = [
+            (np.asarray(train), np.asarray(test))
+            for train, test in check_cv(cv).split(X)
+        ]
+        if not splits:
+            raise ValueError(
+                f"The 'cv' parameter of {type(self).__name__} gave no folds."
+            )
+        return splits
+
+    # -- fitting ----------------------------------------------------------
+    def fit(self, X, y=None, sample_weight=None):
+        """Score every candidate on the folds and fit the winner (or blend).
+
+        Parameters
+        ----------
+        X : array-like of shape (n_samples, n_features)
+            Training data; rows are observations, in time order for time
+            series (the default folds are contiguous blocks).
+        y : Ignored
+        sample_weight : array-like of shape (n_samples,), default=None
+            Non-negative frequency weights of the rows, for the training
+            parts and the refit.
+
+        Returns
+        -------
+        self : object
+
+        Warns
+        -----
+        CandidateFailedWarning
+            When a candidate fails on a fold (too few rows for its rule,
+            ...): it scores ``-inf`` there.
+        """
+        check_params(self)
+        if is_dask_array(X):
+            return self._fit_dask(X, sample_weight)
+        X = self._validate_fit_data(X)
+        owner = type(self).__name__
+        if sample_weight is not None:
+            sample_weight = check_sample_weight(sample_weight, X.shape[0], owner)
+        seed = self._candidate_seed()
+        ests, names = self._resolve_candidates(seed)
+        groups = spectrum_groups(ests)
+        splits = self._splits(X)
+        blend = self.combine == "blend"
+        if blend and len(groups) > 1:
+            raise ValueError(
+                f"{owner}(combine='blend') needs candidates that share one "
+                "sample spectrum: their assume_centered, standardize, route, "
+                "half_life and vol_half_life must agree."
+            )
+        folds = Parallel(n_jobs=self.n_jobs)(
+            delayed(evaluate_fold)(
+                X, sample_weight, train, test, ests, groups, self.scoring, blend
+            )
+            for train, test in splits
+        )
+        self._warn_failures(folds, names)
+        self.candidates_ = ests
+        self.n_splits_ = len(splits)
+        self.cv_results_ = cv_results(folds, names)
+        scores = self.cv_results_["mean_test_score"]
+        self.best_index_ = int(
+            np.flatnonzero(self.cv_results_["rank_test_score"] == 1)[0]
+        )
+        self.best_score_ = float(scores[self.best_index_])
+        if blend:
+            self._fit_blend(X, sample_weight, ests, names, folds, splits)
+        else:
+            self.blend_score_ = None
+            self.weights_ = np.eye(len(ests))[self.best_index_]
+            self._adopt(self._refit(X, sample_weight, ests, names))
+        return self
+
+    def _warn_failures(self, folds, names) -> None:
+        owner = type(self).__name__
+        for j, name in enumerate(names):
+            errors = [f.errors[j] for f in folds if j in f.errors]
+            if errors:
+                warnings.warn(
+                    f"{owner}.fit: candidate {name} failed on {len(errors)} of "
+                    f"{len(folds)} folds and scores -inf there (first error: "
+                    f"{errors[0]}).",
+                    CandidateFailedWarning,
+                    stacklevel=3,
+                )
+
+    def _refit(self, X, sample_weight, ests, names):
+        """The best candidate fitted on all rows (the next one if it fails)."""
+        order = [self.best_index_] + [
+            int(j)
+            for j in np.argsort(-self.cv_results_["mean_test_score"], kind="stable")
+            if j != self.best_index_
+        ]
+        if np.isfinite(self.best_score_):
+            order = order[:1]
+        else:
+            # No candidate could be scored (too few rows for every fold):
+            # the first that fits all rows, in the order given.
+            order = list(range(len(ests)))
+            warnings.warn(
+                f"{type(self).__name__}.fit: no candidate could be scored on "
+                f"the {self.n_splits_} folds; falling back to the first "
+                "candidate that fits all rows.",
+                CandidateFailedWarning,
+                stacklevel=3,
+            )
+        for position, j in enumerate(order):
+            try:
+                best = clone(ests[j]).fit(X, sample_weight=sample_weight)
+            except Exception:
+                if position == len(order) - 1:
+                    raise
+                continue
+            self.best_index_ = int(j)
+            self.weights_ = np.eye(len(ests))[j]
+            return best
+        raise AssertionError("unreachable")  # pragma: no cover
+
+    def _adopt(self, best) -> None:
+        self.best_estimator_ = best
+        for name in _DELEGATED:
+            setattr(self, name, getattr(best, name))
+        # The winner's precision, deferred as it was (formed on first access).
+        self.precision_ = best.__dict__.get("_precision")
+
+    def _fit_blend(self, X, sample_weight, ests, names, folds, splits) -> None:
+        owner = type(self).__name__
+        ok = [j for j in range(len(ests)) if all(j not in f.errors for f in folds)]
+        if not ok:
+            raise ValueError(
+                f"{owner}.fit: no candidate could be scored on every fold, so "
+                "there is nothing to blend."
+            )
+        scorers, values, nulls = [], [], []
+        for f, (_, test) in zip(folds, splits, strict=True):
+            scorers.append(_blend_scorer(self, f, X[test]))
+            values.append(np.stack([f.values[j] for j in ok]))
+            nulls.append(
+                None if f.nulls[ok[0]] is None else np.array([f.nulls[j] for j in ok])
+            )
+        w_ok, self.blend_score_ = blend_weights(scorers, values, nulls)
+        weights = np.zeros(len(ests))
+        weights[ok] = w_ok
+        # Refit: one decomposition of all rows, each weighted rule on it.
+        rep = ests[ok[0]]
+        spectrum, self.volatility_ = rep._fit_spectrum(
+            X,
+            sample_weight,
+            keep_samples=any(ests[j]._needs_samples for j in ok),
+            options={"eigenvectors": "all"},
+        )
+        self._warn_if_weak(spectrum)
+        d, null = 0.0, 0.0
+        for j in np.flatnonzero(weights):
+            values, null_j = in_sample_basis(clone(ests[j])._clean(spectrum), spectrum)
+            d = d + weights[j] * values
+            null = None if null_j is None else null + weights[j] * null_j
+        self._store(spectrum, CleanedEigenvalues(d, null), X.dtype)
+        self.weights_ = weights
+        top = int(np.argmax(weights))
+        self.best_estimator_ = clone(ests[top]).fit(X, sample_weight=sample_weight)
+
+
+def _blend_scorer(auto, fold: FoldResult, X_test):
+    """``score(d, c)`` of blended eigenvalues on one fold."""
+    if isinstance(auto.scoring, str):
+        held = fold.heldout
+
+        def score(d, c):
+            return heldout_score(held, d, c, auto.scoring)
+
+        return score
+    spectrum = fold.spectrum
+
+    def score(d, c):
+        model = SpectralCovariance(
+            store_precision=auto.store_precision,
+            store_covariance=auto.store_covariance,
+        )
+        model._store(spectrum, CleanedEigenvalues(d, c), X_test.dtype)
+        model.n_features_in_ = X_test.shape[1]
+        try:
+            return float(auto.scoring(model, X_test))
+        except Exception:  # noqa: BLE001 - a failed blend scores -inf
+            return -np.inf
+
+    return score
