@@ -26,7 +26,11 @@ from rmtclean import (
     StieltjesShrink,
 )
 from rmtclean.estimators import SpectralCovariance
-from rmtclean.exceptions import CandidateFailedWarning, InvalidParameterError
+from rmtclean.exceptions import (
+    CandidateFailedWarning,
+    InvalidParameterError,
+    WeakEstimateWarning,
+)
 from rmtclean.metrics import minimum_variance_scorer
 from rmtclean.rules._selection import blend_weights, heldout_fold, heldout_score
 from rmtclean.rules._types import CleanedEigenvalues
@@ -311,7 +315,9 @@ def test_no_scorable_candidate_falls_back_to_the_first_that_fits():
     with warnings.catch_warnings(record=True) as caught:
         warnings.simplefilter("always")
         est = AutoShrink(candidates=["clip", "spike"]).fit(X)
-    assert CandidateFailedWarning in [w.category for w in caught]
+    kinds = [w.category for w in caught]
+    assert WeakEstimateWarning in kinds and CandidateFailedWarning not in kinds
+    assert any("too small to score any candidate" in str(w.message) for w in caught)
     assert type(est.best_estimator_) is EigenClip
     assert np.all(np.isfinite(est.covariance_))
 

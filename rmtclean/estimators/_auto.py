@@ -30,7 +30,7 @@ from rmtclean.estimators._folds import (
     spectrum_groups,
 )
 from rmtclean.estimators._registry import CLEANERS, find_cleaner
-from rmtclean.exceptions import CandidateFailedWarning
+from rmtclean.exceptions import CandidateFailedWarning, WeakEstimateWarning
 from rmtclean.rules._selection import (
     SCORINGS,
     blend_weights,
@@ -402,7 +402,11 @@ class AutoShrink(SpectralCovariance):
             )
             for train, test in splits
         )
-        self._warn_failures(folds, names)
+        # With training parts too small for any spectrum (a row or two) no
+        # candidate can be scored: a weak estimate, said once at the refit.
+        unscorable = all(len(f.errors) == len(ests) for f in folds)
+        if not unscorable:
+            self._warn_failures(folds, names)
         self.candidates_ = ests
         self.n_splits_ = len(splits)
         self.cv_results_ = cv_results(folds, names)
@@ -416,7 +420,7 @@ class AutoShrink(SpectralCovariance):
         else:
             self.blend_score_ = None
             self.weights_ = np.eye(len(ests))[self.best_index_]
-            self._adopt(self._refit(X, sample_weight, ests, names))
+            self._adopt(self._refit(X, sample_weight, ests, unscorable))
         return self
 
     def _warn_failures(self, folds, names) -> None:
@@ -432,7 +436,7 @@ class AutoShrink(SpectralCovariance):
                     stacklevel=3,
                 )
 
-    def _refit(self, X, sample_weight, ests, names):
+    def _refit(self, X, sample_weight, ests, unscorable):
         """The best candidate fitted on all rows (the next one if it fails)."""
         order = [self.best_index_] + [
             int(j)
@@ -442,16 +446,25 @@ class AutoShrink(SpectralCovariance):
         if np.isfinite(self.best_score_):
             order = order[:1]
         else:
-            # No candidate could be scored (too few rows for every fold):
-            # the first that fits all rows, in the order given.
+            # No finite score: the first candidate that fits all rows, in
+            # the order given.
             order = list(range(len(ests)))
-            warnings.warn(
-                f"{type(self).__name__}.fit: no candidate could be scored on "
-                f"the {self.n_splits_} folds; falling back to the first "
-                "candidate that fits all rows.",
-                CandidateFailedWarning,
-                stacklevel=3,
-            )
+            owner = type(self).__name__
+            if unscorable:
+                message, category = (
+                    f"{owner}.fit: the training parts of the {self.n_splits_} "
+                    f"folds of {X.shape[0]} rows are too small to score any "
+                    "candidate; the first candidate that fits all rows is "
+                    "used, unchosen: a weak estimate.",
+                    WeakEstimateWarning,
+                )
+            else:
+                message, category = (
+                    f"{owner}.fit: no candidate has a finite held-out score; "
+                    "the first candidate that fits all rows is used.",
+                    CandidateFailedWarning,
+                )
+            warnings.warn(message, category, stacklevel=3)
         for position, j in enumerate(order):
             try:
                 best = clone(ests[j]).fit(X, sample_weight=sample_weight)
