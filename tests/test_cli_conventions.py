@@ -343,3 +343,20 @@ def test_help_pages_show_defaults_and_speak_of_their_command():
     bench = _help("bench")
     assert bench.count("(default") >= 8
     assert "clean it" not in _help("analyze")
+
+
+# -- the README's command-line section ------------------------------------------------
+def test_readme_command_line_examples_parse_and_cover_every_command():
+    import shlex
+
+    from tests.test_install import README, readme_cli_examples
+
+    examples = readme_cli_examples()
+    commands = {shlex.split(line)[1] for line in examples}
+    sub = build_parser()._subparsers._group_actions[0]
+    assert commands == set(sub.choices)
+    for line in examples:
+        words = shlex.split(line.split(">")[0])[1:]  # no redirection target
+        build_parser(words[0]).parse_args(words)
+    for entry in CLEANERS:  # the section's list of short names is complete
+        assert f"`{entry.short}`" in README
