@@ -168,6 +168,8 @@ def _cmd_clean(args) -> int:
         f"  signal eigenvalues: {signal}",
         f"  cleaned {kind}: written to {where}",
     ]
+    if hasattr(est, "describe_choice"):  # AutoShrink says what it chose
+        lines.insert(3, f"  {est.describe_choice()}")
     if args.report:
         lines.append(f"  figure: {args.report}")
     print("\n".join(lines) + "\n\n" + CAUTION, file=say)

@@ -361,3 +361,28 @@ def test_candidates_by_name_get_the_common_parameters(rng):
     assert split.standardize and clip.standardize
     assert split.random_state == 4
     assert est.scale_ is not None
+
+
+def test_describe_choice_names_the_winner_and_the_scores(rng):
+    X = _data(rng, 80, 12)
+    est = AutoShrink(candidates=["spike", "linear"]).fit(X)
+    line = est.describe_choice()
+    res = est.cv_results_
+    winner = res["candidate"][est.best_index_]
+    assert line.startswith(f"chosen by held-out loglik over 5 folds: {winner} (")
+    assert f"{res['mean_test_score'][est.best_index_]:.6g}" in line
+    blend = AutoShrink(candidates=["spike", "linear"], combine="blend").fit(X)
+    assert "blend of" in blend.describe_choice()
+
+
+def test_cli_clean_with_auto_says_what_it_chose(tmp_path, capsys):
+    from rmtclean.cli import main
+
+    X = np.random.default_rng(0).standard_normal((80, 6))
+    path = tmp_path / "returns.csv"
+    np.savetxt(path, X * 0.01, delimiter=",", header="a,b,c,d,e,f", comments="")
+    assert (
+        main(["clean", str(path), "--method", "auto", "--out", str(tmp_path / "c.csv")])
+        == 0
+    )
+    assert "chosen by held-out loglik over 5 folds:" in capsys.readouterr().out
