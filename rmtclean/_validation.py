@@ -1,5 +1,11 @@
 """Parameter and input validation with scikit-learn's message format.
 
+The one vocabulary for checking what a caller passes: parameter specs
+(:func:`check_value`, :func:`check_params`), frequency weights
+(:func:`check_sample_weight`), a sample spectrum with its sizes
+(:func:`check_spectrum`), and the one tolerance below which an eigenvalue
+or singular value is rounding error (:func:`numerical_rank`).
+
 Estimators declare ``_parameter_specs``: a dict mapping each parameter name
 to a list of accepted forms. A form is ``None`` (the value ``None``), an
 :class:`Interval`, an :class:`Options` set of strings, :data:`BOOLEAN`,
@@ -29,7 +35,11 @@ __all__ = [
     "Options",
     "check_params",
     "check_sample_weight",
+    "check_sizes",
+    "check_spectrum",
     "check_value",
+    "numerical_rank",
+    "rank_tolerance",
 ]
 
 
@@ -190,3 +200,143 @@ def check_sample_weight(sample_weight, n_samples: int, owner: str) -> np.ndarray
     if w.sum() <= 0:
         raise ValueError(f"sample_weight of {owner} sums to zero.")
     return w
+
+
+# --------------------------------------------------------------------------
+# the numerical rank
+
+
+def rank_tolerance(largest: float, *sizes: float) -> float:
+    """Values at or below this are rounding error: ``largest max(sizes) eps``.
+
+    This is :func:`numpy.linalg.matrix_rank`'s tolerance (and
+    :func:`scipy.linalg.pinvh`'s): the largest value times the larger
+    dimension times the machine epsilon. ``largest`` is the largest
+    singular value or eigenvalue, ``sizes`` the dimensions of the matrix
+    whose rank is measured (for a sample covariance: the degrees of freedom
+    and the number of features). A negative ``largest`` counts as 0.
+    """
+    return max(float(largest), 0.0) * max(sizes, default=1) * np.finfo(np.float64).eps
+
+
+def numerical_rank(values: np.ndarray, *sizes: float) -> int:
+    """Number of the descending ``values`` above :func:`rank_tolerance`.
+
+    ``values`` are singular values or eigenvalues in descending order; the
+    tolerance is taken on the first with the dimensions ``sizes`` and the
+    number of values itself. Repeated rows or collinear columns leave
+    values that are only rounding error: they are the null space, not noise.
+    """
+    if values.size == 0:
+        return 0
+    tol = rank_tolerance(values[0], values.size, *sizes)
+    return int(np.count_nonzero(values > tol))
+
+
+# --------------------------------------------------------------------------
+# a sample spectrum and its sizes
+
+
+def check_sizes(n_samples, n_features, owner: str) -> tuple[float, int]:
+    """Validate the degrees of freedom (a positive finite real) and ``N``."""
+    if (
+        isinstance(n_samples, (bool, np.bool_))
+        or not isinstance(n_samples, numbers.Real)
+        or not math.isfinite(n_samples)
+        or n_samples <= 0
+    ):
+        raise ValueError(
+            f"The 'n_samples' parameter of {owner} must be a positive finite "
+            f"number (the degrees of freedom). Got {n_samples!r} instead."
+        )
+    if (
+        isinstance(n_features, (bool, np.bool_))
+        or not isinstance(n_features, numbers.Integral)
+        or n_features < 1
+    ):
+        raise ValueError(
+            f"The 'n_features' parameter of {owner} must be a positive int. "
+            f"Got {n_features!r} instead."
+        )
+    return float(n_samples), int(n_features)
+
+
+def check_spectrum(
+    eigenvalues,
+    n_samples,
+    n_features,
+    owner: str,
+    *,
+    positive: bool = False,
+    allow_zero: bool = False,
+    descending: bool = True,
+) -> tuple[np.ndarray, float, int]:
+    """Validate a sample spectrum given to a rule or a spectrum function.
+
+    Returns a float64 copy of ``eigenvalues`` (descending; negative values
+    within rounding of zero set to zero), ``n_samples`` as a float and
+    ``n_features`` as an int. ``positive`` requires every value to be
+    positive (rules that take only the nonzero part of the spectrum);
+    ``allow_zero`` accepts a spectrum that is all zero; ``descending=False``
+    accepts any order (rules that treat each value on its own).
+
+    Raises
+    ------
+    TypeError
+        For values that are not real numbers.
+    ValueError
+        For bad sizes, an empty, non-1-D or non-finite array, more values
+        than ``n_features``, values not in descending order, negative
+        values, zeros when ``positive`` or an all-zero spectrum.
+    """
+    n_samples, n_features = check_sizes(n_samples, n_features, owner)
+    array = np.asarray(eigenvalues)
+    if array.dtype == object or not (
+        np.issubdtype(array.dtype, np.integer)
+        or np.issubdtype(array.dtype, np.floating)
+    ):
+        raise TypeError(
+            f"The 'eigenvalues' input of {owner} must hold real numbers. "
+            f"Got an array of dtype {array.dtype} instead."
+        )
+    if array.ndim != 1 or array.size == 0:
+        raise ValueError(
+            f"The 'eigenvalues' input of {owner} must be a non-empty 1-D "
+            f"array. Got shape {array.shape} instead."
+        )
+    values = np.array(array, dtype=np.float64)
+    if not np.all(np.isfinite(values)):
+        raise ValueError(
+            f"The 'eigenvalues' input of {owner} must be finite. Got "
+            f"{np.count_nonzero(~np.isfinite(values))} NaN or infinite value(s)."
+        )
+    if values.size > n_features:
+        raise ValueError(
+            f"The 'eigenvalues' input of {owner} has {values.size} values, "
+            f"more than n_features={n_features}: the 'n_features' parameter of "
+            f"{owner} must be at least len(eigenvalues)."
+        )
+    top = float(np.max(np.abs(values)))
+    tol = 64.0 * np.finfo(np.float64).eps * max(values.size, 1) * top
+    if descending and np.any(np.diff(values) > tol):
+        raise ValueError(
+            f"The 'eigenvalues' input of {owner} must be in descending order."
+        )
+    if positive and values[-1] <= 0:
+        raise ValueError(
+            f"The 'eigenvalues' input of {owner} must all be positive (pass only "
+            f"the nonzero part of the spectrum); got a minimum of "
+            f"{float(values[-1])!r}."
+        )
+    if values[-1] < -tol:
+        raise ValueError(
+            f"The 'eigenvalues' input of {owner} must be non-negative (a "
+            f"sample covariance spectrum). Got a minimum of {values[-1]!r}."
+        )
+    np.maximum(values, 0.0, out=values)
+    if top == 0.0 and not allow_zero:
+        raise ValueError(
+            f"The 'eigenvalues' input of {owner} is all zero: there is no "
+            "spectrum to fit."
+        )
+    return values, n_samples, n_features

@@ -17,6 +17,7 @@ from rmtclean._validation import (
     Options,
     check_params,
     check_sample_weight,
+    numerical_rank,
 )
 from rmtclean.distributed import dask_sample_spectrum, is_dask_array
 from rmtclean.exceptions import RankDeficientWarning, WeakEstimateWarning
@@ -310,8 +311,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         # Round-off zeros (numpy's matrix_rank tolerance) among the
         # eigenvalues the sample size allows: duplicated or collinear
         # columns, or repeated rows.
-        tol = vals[0] * max(spectrum.n_features, vals.size + 1) * np.finfo(float).eps
-        n_zero = int(np.count_nonzero(vals <= tol))
+        n_zero = vals.size - numerical_rank(vals, spectrum.n_features, vals.size + 1)
         if vals[0] > 0 and n_zero:
             warnings.warn(
                 f"{owner}.fit: the data are rank deficient beyond what the sample "

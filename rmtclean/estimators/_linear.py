@@ -7,7 +7,14 @@ import warnings
 import numpy as np
 from scipy.linalg import lapack
 
-from rmtclean._validation import BOOLEAN, Interval, Options, check_params
+from rmtclean._validation import (
+    BOOLEAN,
+    Interval,
+    Options,
+    check_params,
+    numerical_rank,
+    rank_tolerance,
+)
 from rmtclean.distributed import is_dask_array
 from rmtclean.estimators._base import SpectralCovariance, common_params_doc
 from rmtclean.exceptions import WeakEstimateWarning
@@ -366,7 +373,7 @@ class _RankOnly:
 
     def __init__(self, S: np.ndarray, dof: float):
         n_features = S.shape[0]
-        tol = max(float(np.max(np.diagonal(S))), 0.0) * n_features * np.finfo(float).eps
+        tol = rank_tolerance(np.max(np.diagonal(S)), n_features)
         # S is symmetric, so S.T is its Fortran-ordered view: factor in place.
         rank = int(lapack.dpstrf(S.T, tol=tol, lower=1, overwrite_a=1)[2])
         self.n_samples = dof
@@ -383,8 +390,7 @@ def _dense_spectrum(cov: np.ndarray, scale=None) -> CleanedSpectrum:
     """
     vals, vecs = np.linalg.eigh(cov)
     vals = vals[::-1].copy()
-    tol = max(vals[0], 0.0) * cov.shape[0] * np.finfo(np.float64).eps
-    vals[vals <= tol] = 0.0
+    vals[numerical_rank(vals, cov.shape[0]) :] = 0.0
     return CleanedSpectrum(np.ascontiguousarray(vecs[:, ::-1]), vals, scale=scale)
 
 

@@ -8,14 +8,10 @@ from numbers import Integral
 
 import numpy as np
 
+from rmtclean._validation import check_spectrum, numerical_rank
 from rmtclean.exceptions import WeakEstimateWarning
 from rmtclean.rules._types import CleanedEigenvalues, ClipDetails
-from rmtclean.spectrum._bulk import (
-    _check_eigenvalues,
-    _check_sizes,
-    _fit_bulk,
-    _numerical_rank,
-)
+from rmtclean.spectrum._bulk import _fit_bulk
 from rmtclean.spectrum._edge import (
     DEFAULT_CONSTANTS,
     _check_alpha,
@@ -53,7 +49,7 @@ def _eigen_clip(values, n_samples, n_features, edge, n_keep, alpha):
     details: dict = {}
     # Rounding-error zeros (repeated rows, collinear columns) are null space:
     # the edge is found on the others, so that weights and repeated rows agree.
-    nonzero = values[: _numerical_rank(values, n_samples)]
+    nonzero = values[: numerical_rank(values, n_samples)]
     if n_keep is None and isinstance(edge, str) and min(nonzero.size, n_samples) < 3:
         warnings.warn(
             f"eigen_clip with edge={edge!r} needs at least 3 nonzero eigenvalues "
@@ -190,8 +186,9 @@ def eigen_clip(
     (1.0, 1)
     """
     function = "eigen_clip"
-    n_samples, n_features = _check_sizes(n_samples, n_features, function)
-    values = _check_eigenvalues(eigenvalues, n_features, function)
+    values, n_samples, n_features = check_spectrum(
+        eigenvalues, n_samples, n_features, function
+    )
     edge = _check_level(edge, "edge", _EDGES, function)
     if n_keep is not None and (
         isinstance(n_keep, bool) or not isinstance(n_keep, Integral) or n_keep < 0

@@ -17,7 +17,7 @@ import math
 import numpy as np
 
 from rmtclean._data import check_data
-from rmtclean._validation import Interval, check_value
+from rmtclean._validation import Interval, check_value, numerical_rank
 from rmtclean.rules._kernel import (
     HARD_EDGE_ZONE,
     KERNEL_FORMULAS,
@@ -90,11 +90,10 @@ def _both_rules(Z, dof, p, bandwidth, formula, n_jobs, where):
     U, s, _ = np.linalg.svd(Z.T, full_matrices=False)
     m = int(min(p, dof))
     lam, U = s[:m] ** 2 / dof, U[:, :m]
-    # Numerical rank of the rows (numpy.linalg.matrix_rank's tolerance on
-    # singular values): the SVD resolves small eigenvalues near the hard edge
-    # that a relative tolerance on eigenvalues would count as zeros.
-    tol = (s[0] if s.size else 0.0) * max(Z.shape) * np.finfo(np.float64).eps
-    r = int(np.count_nonzero(s[:m] > tol))
+    # Numerical rank of the rows, taken on the singular values: the SVD
+    # resolves small eigenvalues near the hard edge that the same tolerance
+    # on eigenvalues would count as zeros.
+    r = min(m, numerical_rank(s, *Z.shape))
     ker = _kernel_values(lam, r, dof, p, bandwidth, formula, n_jobs, where)
     lin = _linear_shrink(
         lam, dof, p, intensity="ledoit-wolf", squared_norms=np.sum(Z**2, axis=1)

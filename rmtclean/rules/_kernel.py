@@ -9,13 +9,11 @@ numba or numpy) and :func:`_kernel_shrink`, the public validated
 from __future__ import annotations
 
 import math
-import numbers
 
 import numpy as np
 
 from rmtclean import _kernels
-from rmtclean._data import check_eigenvalues
-from rmtclean._validation import Interval, check_value
+from rmtclean._validation import Interval, check_spectrum, check_value
 from rmtclean.rules._linear import _check_choice, _linear_shrink
 from rmtclean.rules._types import CleanedEigenvalues, KernelDetails
 
@@ -210,29 +208,6 @@ def _check_positive_real(value, name, owner):
     return float(value)
 
 
-def _check_spectrum(eigenvalues, n_samples, n_features, owner):
-    """Validate a rule's sample spectrum: (vals, n) with vals descending > 0."""
-    vals = check_eigenvalues(eigenvalues, owner)
-    n = _check_positive_real(n_samples, "n_samples", owner)
-    if not (
-        isinstance(n_features, numbers.Integral)
-        and not isinstance(n_features, (bool, np.bool_))
-        and n_features >= vals.size
-    ):
-        raise ValueError(
-            f"The 'n_features' parameter of {owner} must be an int of at least "
-            f"len(eigenvalues) = {vals.size}. Got {n_features!r} instead."
-        )
-    if np.any(np.diff(vals) > 0):
-        raise ValueError(f"eigenvalues of {owner} must be sorted in descending order.")
-    if vals[-1] <= 0:
-        raise ValueError(
-            f"eigenvalues of {owner} must all be positive (pass only the nonzero "
-            f"part of the spectrum); got a minimum of {float(vals[-1])!r}."
-        )
-    return vals, n
-
-
 def kernel_shrink(
     eigenvalues,
     n_samples: float,
@@ -370,7 +345,9 @@ def kernel_shrink(
     True
     """
     owner = "kernel_shrink"
-    vals, n = _check_spectrum(eigenvalues, n_samples, n_features, owner)
+    vals, n, _ = check_spectrum(
+        eigenvalues, n_samples, n_features, owner, positive=True
+    )
     if bandwidth is not None:
         bandwidth = _check_positive_real(bandwidth, "bandwidth", owner)
     _check_choice(formula, "formula", owner, KERNEL_FORMULAS)

@@ -26,12 +26,16 @@ after demeaning), which is what ``sklearn.covariance`` does.
 
 from __future__ import annotations
 
-import numbers
-
 import numpy as np
 
 from rmtclean._data import check_data, check_eigenvalues
-from rmtclean._validation import Interval, Options, check_sample_weight, check_value
+from rmtclean._validation import (
+    Interval,
+    Options,
+    check_sample_weight,
+    check_spectrum,
+    check_value,
+)
 from rmtclean.rules._types import CleanedEigenvalues, LinearDetails
 from rmtclean.spectrum._sample import column_scale
 
@@ -341,27 +345,10 @@ def linear_shrink(
     (array([2.0625, 1.0625, 0.8125]), 0.5625)
     """
     owner = "linear_shrink"
-    vals = check_eigenvalues(eigenvalues, owner)
+    vals, n_samples, n_features = check_spectrum(
+        eigenvalues, n_samples, n_features, owner, allow_zero=True, descending=False
+    )
     intensity = _check_intensity(intensity, "intensity", owner)
-    if not (
-        isinstance(n_samples, numbers.Real)
-        and not isinstance(n_samples, bool)
-        and n_samples > 0
-        and np.isfinite(n_samples)
-    ):
-        raise ValueError(
-            f"The 'n_samples' parameter of {owner} must be a positive float. "
-            f"Got {n_samples!r} instead."
-        )
-    if not (
-        isinstance(n_features, numbers.Integral)
-        and not isinstance(n_features, bool)
-        and n_features >= vals.size
-    ):
-        raise ValueError(
-            f"The 'n_features' parameter of {owner} must be an int of at least "
-            f"len(eigenvalues) = {vals.size}. Got {n_features!r} instead."
-        )
     sq = w = None
     if intensity == "ledoit-wolf":
         if squared_norms is None:
@@ -375,8 +362,8 @@ def linear_shrink(
             w = check_sample_weight(sample_weight, sq.size, owner)
     return _linear_shrink(
         vals,
-        float(n_samples),
-        int(n_features),
+        n_samples,
+        n_features,
         intensity=intensity,
         squared_norms=sq,
         sample_weight=w,

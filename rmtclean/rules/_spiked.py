@@ -79,9 +79,10 @@ from types import MappingProxyType
 
 import numpy as np
 
+from rmtclean._validation import check_spectrum, numerical_rank
 from rmtclean.laws import MarchenkoPastur
 from rmtclean.rules._types import CleanedEigenvalues, SpikeDetails
-from rmtclean.spectrum._bulk import _check_eigenvalues, _check_sizes, fit_bulk
+from rmtclean.spectrum._bulk import fit_bulk
 from rmtclean.spectrum._spikes import (
     SpikeInversion,
     _check_positive_scalar,
@@ -222,8 +223,7 @@ def _estimate_noise_variance(
     """Noise variance of a validated descending spectrum by ``method``."""
     # Round-off zeros (numpy's matrix_rank tolerance) are rank deficiency,
     # not noise: leave them out.
-    tol = eigenvalues[0] * max(n_features, eigenvalues.size) * np.finfo(float).eps
-    positive = eigenvalues[eigenvalues > tol]
+    positive = eigenvalues[: numerical_rank(eigenvalues, n_features)]
     median, n_signal = _median_noise_variance(positive, n_samples, n_features)
     if method == "median" or positive.size < 3:
         return median
@@ -358,8 +358,9 @@ def spike_shrink(
     True
     """
     name = "spike_shrink"
-    n_samples, n_features = _check_sizes(n_samples, n_features, name)
-    values = _check_eigenvalues(eigenvalues, n_features, name)
+    values, n_samples, n_features = check_spectrum(
+        eigenvalues, n_samples, n_features, name
+    )
     if not isinstance(loss, str) or loss not in SPIKE_SHRINKERS:
         raise ValueError(
             f"The 'loss' parameter of {name} must be one of "

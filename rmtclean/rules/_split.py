@@ -83,6 +83,7 @@ from rmtclean._validation import (
     Options,
     check_sample_weight,
     check_value,
+    rank_tolerance,
 )
 from rmtclean.rules._types import CleanedEigenvalues, SplitDetails
 from rmtclean.spectrum import SampleSpectrum
@@ -138,7 +139,7 @@ def _range_basis(Xc: np.ndarray, rank: int) -> np.ndarray:
         return vecs[:, ::-1][:, :rank]
     vals, left = np.linalg.eigh(Xc @ Xc.T)
     vals, left = vals[::-1][:rank], left[:, ::-1][:, :rank]
-    keep = vals > n_rows * np.finfo(np.float64).eps * max(vals[0], 0.0)
+    keep = vals > rank_tolerance(vals[0], n_rows)
     basis = Xc.T @ (left[:, keep] / np.sqrt(vals[keep]))
     # Re-orthonormalisation removes the rounding of the Gram route.
     q = _orthonormalise(basis)

@@ -13,9 +13,9 @@ import numpy as np
 
 from rmtclean import _kernels
 from rmtclean._kernels import resolvent_sum_widths
-from rmtclean._validation import BOOLEAN, check_value
+from rmtclean._validation import BOOLEAN, check_spectrum, check_value
 from rmtclean.laws import MarchenkoPastur
-from rmtclean.rules._kernel import _POSITIVE_FINITE, _check_spectrum
+from rmtclean.rules._kernel import _POSITIVE_FINITE
 from rmtclean.rules._linear import _check_choice
 from rmtclean.rules._types import CleanedEigenvalues, StieltjesDetails
 
@@ -331,7 +331,9 @@ def stieltjes_shrink(
     True
     """
     owner = "stieltjes_shrink"
-    vals, n = _check_spectrum(eigenvalues, n_samples, n_features, owner)
+    vals, n, _ = check_spectrum(
+        eigenvalues, n_samples, n_features, owner, positive=True
+    )
     check_value(eta, [_POSITIVE_FINITE, None], "eta", owner)
     check_value(regularize, [BOOLEAN], "regularize", owner)
     check_value(preserve_trace, [BOOLEAN], "preserve_trace", owner)

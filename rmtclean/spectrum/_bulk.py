@@ -10,10 +10,12 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from numbers import Integral, Real
+from numbers import Integral
 
 import numpy as np
 import scipy.optimize
+
+from rmtclean._validation import check_sizes, check_spectrum, numerical_rank
 
 __all__ = ["BulkFit", "fit_bulk"]
 
@@ -81,80 +83,7 @@ class BulkFit:
 
 
 # --------------------------------------------------------------------------
-# validation shared by the spectrum functions and the clipping rule
-
-
-def _check_sizes(n_samples, n_features, function: str) -> tuple[float, int]:
-    if (
-        isinstance(n_samples, bool)
-        or not isinstance(n_samples, Real)
-        or not math.isfinite(n_samples)
-        or n_samples <= 0
-    ):
-        raise ValueError(
-            f"The 'n_samples' parameter of {function} must be a positive finite "
-            f"number (the degrees of freedom). Got {n_samples!r} instead."
-        )
-    if (
-        isinstance(n_features, bool)
-        or not isinstance(n_features, Integral)
-        or n_features < 1
-    ):
-        raise ValueError(
-            f"The 'n_features' parameter of {function} must be a positive int. "
-            f"Got {n_features!r} instead."
-        )
-    return float(n_samples), int(n_features)
-
-
-def _check_eigenvalues(eigenvalues, n_features: int, function: str) -> np.ndarray:
-    """Validated float64 copy of a descending sample spectrum.
-
-    Negative values within rounding error of zero are set to zero.
-    """
-    array = np.asarray(eigenvalues)
-    if array.dtype == object or not (
-        np.issubdtype(array.dtype, np.integer)
-        or np.issubdtype(array.dtype, np.floating)
-    ):
-        raise TypeError(
-            f"The 'eigenvalues' input of {function} must hold real numbers. "
-            f"Got an array of dtype {array.dtype} instead."
-        )
-    if array.ndim != 1 or array.size == 0:
-        raise ValueError(
-            f"The 'eigenvalues' input of {function} must be a non-empty 1-D "
-            f"array. Got shape {array.shape} instead."
-        )
-    values = np.array(array, dtype=np.float64)
-    if not np.all(np.isfinite(values)):
-        raise ValueError(
-            f"The 'eigenvalues' input of {function} must be finite. Got "
-            f"{np.count_nonzero(~np.isfinite(values))} NaN or infinite value(s)."
-        )
-    if values.size > n_features:
-        raise ValueError(
-            f"The 'eigenvalues' input of {function} has {values.size} values, "
-            f"more than n_features={n_features}."
-        )
-    top = float(np.max(np.abs(values)))
-    tol = 64.0 * np.finfo(np.float64).eps * max(values.size, 1) * top
-    if np.any(np.diff(values) > tol):
-        raise ValueError(
-            f"The 'eigenvalues' input of {function} must be in descending order."
-        )
-    if values[-1] < -tol:
-        raise ValueError(
-            f"The 'eigenvalues' input of {function} must be non-negative (a "
-            f"sample covariance spectrum). Got a minimum of {values[-1]!r}."
-        )
-    np.maximum(values, 0.0, out=values)
-    if top == 0.0:
-        raise ValueError(
-            f"The 'eigenvalues' input of {function} is all zero: there is no "
-            "spectrum to fit."
-        )
-    return values
+# validation of the spectrum functions' own parameters
 
 
 def _check_n_signal(n_signal, n_components: int, n_samples: float, function: str):
@@ -170,17 +99,6 @@ def _check_n_signal(n_signal, n_components: int, n_samples: float, function: str
             f"n_signal must stay below n_samples). Got {n_signal!r} instead."
         )
     return int(n_signal)
-
-
-def _numerical_rank(values: np.ndarray, n_samples: float) -> int:
-    """Number of eigenvalues above rounding error (the rest are exact zeros).
-
-    Repeated rows or collinear columns leave zeros in the stored spectrum
-    that are only rounding error (numpy's ``matrix_rank`` tolerance, squared
-    singular values: ``max(N, n) eps`` times the largest eigenvalue).
-    """
-    tol = values[0] * max(values.size, n_samples) * np.finfo(np.float64).eps
-    return int(np.count_nonzero(values > tol))
 
 
 # --------------------------------------------------------------------------
@@ -435,10 +353,11 @@ def fit_bulk(
     (2.3, 0.25)
     """
     function = "fit_bulk"
-    n_samples, n_features = _check_sizes(n_samples, n_features, function)
-    values = _check_eigenvalues(eigenvalues, n_features, function)
+    values, n_samples, n_features = check_spectrum(
+        eigenvalues, n_samples, n_features, function
+    )
     # rounding-error zeros (repeated rows, collinear columns) are null space
-    values = values[: _numerical_rank(values, n_samples)]
+    values = values[: numerical_rank(values, n_samples)]
     n_signal = _check_n_signal(n_signal, values.size, n_samples, function)
     if not isinstance(fix_ratio, (bool, np.bool_)):
         raise ValueError(
@@ -456,3 +375,13 @@ def fit_bulk(
             "largest) is all zero: there is no noise level to fit."
         )
     return _fit_bulk(values, n_samples, n_features, n_signal, bool(fix_ratio), method)
+
+
+# The names the spectrum modules import (one definition: rmtclean._validation).
+_check_sizes = check_sizes
+_numerical_rank = numerical_rank
+
+
+def _check_eigenvalues(eigenvalues, n_features: int, function: str) -> np.ndarray:
+    """:func:`rmtclean._validation.check_spectrum`'s values for a known ``N``."""
+    return check_spectrum(eigenvalues, 1.0, n_features, function)[0]

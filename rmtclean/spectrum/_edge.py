@@ -9,12 +9,8 @@ from numbers import Integral, Real
 
 import numpy as np
 
-from rmtclean.spectrum._bulk import (
-    _bulk_sizes,
-    _check_eigenvalues,
-    _check_sizes,
-    _numerical_rank,
-)
+from rmtclean._validation import check_spectrum, numerical_rank
+from rmtclean.spectrum._bulk import _bulk_sizes
 
 __all__ = ["EdgeTest", "detect_signal"]
 
@@ -435,10 +431,11 @@ def detect_signal(
     2
     """
     function = "detect_signal"
-    n_samples, n_features = _check_sizes(n_samples, n_features, function)
-    values = _check_eigenvalues(eigenvalues, n_features, function)
+    values, n_samples, n_features = check_spectrum(
+        eigenvalues, n_samples, n_features, function
+    )
     # rounding-error zeros (repeated rows, collinear columns) are null space
-    values = values[: _numerical_rank(values, n_samples)]
+    values = values[: numerical_rank(values, n_samples)]
     alpha = _check_alpha(alpha, function)
     max_signal, s2 = _check_edge_options(
         values, n_samples, max_signal, constants, noise_variance, function
