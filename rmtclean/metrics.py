@@ -14,6 +14,7 @@ import scipy.linalg
 from rmtclean._data import check_data
 
 __all__ = [
+    "TERMS",
     "frobenius_loss",
     "gaussian_log_likelihood",
     "minimum_variance_loss",
@@ -24,6 +25,20 @@ __all__ = [
 ]
 
 _ORACLE_LOSSES = ("frobenius", "stein")
+
+#: One line per word that tables, reports and figures print beside scores
+#: (the demo, ``rmtclean bench``): the same words, the same meaning.
+TERMS = {
+    "oracle": "oracle: the sample eigenvectors with the true variances along "
+    "them, U diag(u_i' Sigma u_i) U'; the best any cleaner that keeps the "
+    "sample eigenvectors can do (it needs the truth: a bound, not an estimator)",
+    "sample": "sample: the sample covariance (divisor T - 1), i.e. no cleaning",
+    "sk.": "sk.*: scikit-learn's estimators of that name, as baselines",
+    "PRIAL": "PRIAL: percentage relative improvement in average loss; 0% is "
+    "the sample covariance, 100% the oracle, below 0% worse than no cleaning",
+    "loss ratio": "loss ratio: a cleaner's loss divided by the sample "
+    "covariance's; below 1 is closer to the truth than no cleaning",
+}
 
 
 # --------------------------------------------------------------------- checks

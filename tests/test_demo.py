@@ -10,7 +10,7 @@ from rmtclean.estimators import CLEANERS
 def test_demo_scores_every_cleaner_and_the_oracle_is_best():
     result = run_demo(n_assets=40, n_days=90, random_state=3)
     names = [row[0] for row in result.rows]
-    for name in [*(entry.name for entry in CLEANERS), "LedoitWolf (sklearn)"]:
+    for name in [*(entry.name for entry in CLEANERS), "sk.LedoitWolf"]:
         assert name in names
     losses = np.array([row[1] for row in result.rows])
     assert np.all(np.isfinite(losses)) and np.all(losses > 0)
@@ -27,3 +27,22 @@ def test_demo_command_prints_report_table_and_caution(capsys):
     out = capsys.readouterr().out
     assert "KernelShrink" in out and "oracle" in out
     assert CAUTION in out
+
+
+def test_demo_and_bench_share_one_vocabulary():
+    from rmtclean.bench import available_cleaners
+    from rmtclean.metrics import TERMS
+
+    result = run_demo(n_assets=30, n_days=60, random_state=1)
+    names = [row[0] for row in result.rows]
+    assert names[:2] == ["oracle", "sample"]
+    assert set(names) <= set(available_cleaners())
+    text = str(result)
+    for word in ("loss ratio", "oracle", "sample"):
+        assert TERMS[word] in text
+    # The loss ratio column: each loss over the sample covariance's.
+    sample = result.rows[1][1]
+    table = text.splitlines()[2 : 2 + len(result.rows)]
+    for line, row in zip(table, result.rows, strict=True):
+        assert line.split()[0] == row[0]
+        assert float(line.split()[2]) == float(f"{row[1] / sample:.3f}")

@@ -15,6 +15,7 @@ from rmtclean.bench.plan import BenchConfig, draw
 from rmtclean.bench.registry import SAMPLE
 from rmtclean.bench.run import BenchRun, _dense_covariance
 from rmtclean.bench.stats import summarize
+from rmtclean.metrics import TERMS
 
 __all__ = ["format_markdown", "shrinkage_curves", "write_report"]
 
@@ -80,10 +81,11 @@ def format_markdown(
         f"{platform.python_version()}, numpy {np.__version__}, scikit-learn "
         f"{sklearn.__version__}.",
         "",
-        "Entries are mean ± standard error over repetitions. PRIAL: 0% is the "
-        "sample covariance, 100% the oracle (Frobenius loss; PRIAL-MV with the "
+        "Entries are mean ± standard error over repetitions. "
+        f"{TERMS['PRIAL']} (Frobenius loss; PRIAL-MV with the "
         "minimum-variance loss, undefined where the sample covariance is "
-        "singular). Losses are normalised by N (Ledoit-Wolf); log-lik/N is the "
+        f"singular). {TERMS['oracle']}. {TERMS['sk.']}. "
+        "Losses are normalised by N (Ledoit-Wolf); log-lik/N is the "
         "held-out Gaussian log-likelihood per sample divided by N; fit ms is one "
         "fit's wall time; peak MiB is traced numpy memory of a fit.",
         "",
