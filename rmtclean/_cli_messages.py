@@ -29,30 +29,40 @@ def warn(args, text: str) -> None:
     print(f"rmtclean {args.command}: warning: {text}", file=sys.stderr)
 
 
-def cli_language(message: str, columns=None) -> str:
+def cli_language(message: str, columns=None, flags=None) -> str:
     """``message`` on one line, with flags for parameters and names for columns.
 
     Library messages name Python parameters (``The 'half_life' parameter of
     EigenClip``, ``missing='em'``) and 0-based column positions; the command
     line knows flags and the file's column names.
+
+    Parameters
+    ----------
+    message : str or Exception
+    columns : sequence, optional
+        The data's column names, replacing 0-based positions.
+    flags : dict, optional
+        Parameter name -> flag of the running command (its options' ``dest``
+        -> option string), on top of :data:`FLAGS`.
     """
     text = " ".join(str(message).split())
+    known = {**(flags or {}), **FLAGS}
 
     def flag(match):
-        return FLAGS.get(match.group(1), match.group(0))
+        return known.get(match.group(1), match.group(0))
 
     text = re.sub(r"The '(\w+)' parameter of \w+(?:\.\w+)?", flag, text)
     text = re.sub(r"^[A-Z]\w*\.fit: ", "", text)  # the method is on the command
     text = re.sub(
         r"\b(\w+)='([^']*)'",
         lambda m: (
-            f"{FLAGS[m.group(1)]} {m.group(2)}" if m.group(1) in FLAGS else m.group(0)
+            f"{known[m.group(1)]} {m.group(2)}" if m.group(1) in known else m.group(0)
         ),
         text,
     )
     text = re.sub(
         r"\b(\w+)=True\b",
-        lambda m: FLAGS.get(m.group(1), m.group(0)),
+        lambda m: known.get(m.group(1), m.group(0)),
         text,
     )
     text = re.sub(
@@ -85,7 +95,11 @@ class WarningLines(warnings.catch_warnings):
         return out
 
     def _show(self, message, category, filename, lineno, file=None, line=None):
-        text = cli_language(message, getattr(self._args, "columns", None))
+        text = cli_language(
+            message,
+            getattr(self._args, "columns", None),
+            getattr(self._args, "flags", None),
+        )
         if text not in self._seen:
             self._seen.add(text)
             warn(self._args, text)

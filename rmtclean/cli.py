@@ -52,12 +52,35 @@ def _cmd_demo(args) -> int:
     return 0
 
 
+def _count_at_least(low: int, why: str):
+    """argparse type: an integer of at least ``low`` (``why`` says the reason)."""
+
+    def parse(text: str) -> int:
+        try:
+            value = int(text)
+        except ValueError:
+            value = low - 1
+        if value < low:
+            raise argparse.ArgumentTypeError(
+                f"expected an integer of at least {low} ({why}), got {text!r}"
+            )
+        return value
+
+    return parse
+
+
 def _add_demo_arguments(demo) -> None:
     demo.add_argument(
-        "--assets", type=int, default=300, help="number of assets (default 300)"
+        "--assets",
+        type=_count_at_least(10, "one per sector at least"),
+        default=300,
+        help="number of assets, at least 10 (default 300)",
     )
     demo.add_argument(
-        "--days", type=int, default=500, help="number of days (default 500)"
+        "--days",
+        type=_count_at_least(5, "the spectrum report needs them"),
+        default=500,
+        help="number of days, at least 5 (default 500)",
     )
     demo.add_argument("--seed", type=int, default=7, help="scenario seed (default 7)")
     demo.set_defaults(func=_cmd_demo)
@@ -582,6 +605,10 @@ def main(argv=None) -> int:
     if getattr(args, "func", None) is None:
         parser.print_help()
         return 2
+    chosen = parser._subparsers._group_actions[0].choices[args.command]
+    args.flags = {
+        a.dest: a.option_strings[0] for a in chosen._actions if a.option_strings
+    }
     with WarningLines(args):
         try:
             return int(args.func(args))
@@ -592,7 +619,7 @@ def main(argv=None) -> int:
             os.dup2(os.open(os.devnull, os.O_WRONLY), sys.stdout.fileno())
             return 1
         except (ValueError, TypeError, OSError, ImportError) as exc:
-            message = cli_language(exc, getattr(args, "columns", None))
+            message = cli_language(exc, getattr(args, "columns", None), args.flags)
             print(f"rmtclean {args.command}: error: {message}", file=sys.stderr)
             return 1
 

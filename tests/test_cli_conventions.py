@@ -335,6 +335,29 @@ def test_help_pages_show_defaults_and_speak_of_their_command():
     demo = _help("demo")
     for text in ("(default 300)", "(default 500)", "(default 7)"):
         assert text in demo
+
+
+@pytest.mark.parametrize(
+    "argv, flag",
+    [
+        (["demo", "--assets", "2"], "--assets"),
+        (["demo", "--days", "2"], "--days"),
+    ],
+)
+def test_demo_sizes_checked_as_usage_errors(capsys, argv, flag):
+    with pytest.raises(SystemExit) as info:
+        main(argv)
+    assert info.value.code == 2
+    assert f"argument {flag}: expected an integer of at least" in (
+        capsys.readouterr().err
+    )
+
+
+def test_bench_option_errors_name_the_flags(capsys):
+    code, _, err = _run(["bench", "--quick", "--designs", "nope"], capsys)
+    assert code == 1
+    assert err.startswith("rmtclean bench: error: --designs must list names among")
+    assert "parameter" not in err and "BenchConfig" not in err
     bench = _help("bench")
     assert bench.count("(default") >= 8
     assert "clean it" not in _help("analyze")
