@@ -156,3 +156,19 @@ def test_spectrum_report_equals_analyze_spectrum(rng):
     a = analyze_spectrum(X, standardize=True)
     b = spectrum_report(sample_spectrum(X, standardize=True), n_observations=200)
     assert a.to_dict() == b.to_dict()
+
+
+def test_estimators_count_as_the_report(industry_long):
+    # One count per file: French 49 industries (see module docstring), last
+    # 750 rows, covariance and correlation; every cleaner of the registry.
+    from rmtclean.estimators import CLEANERS
+
+    X = industry_long[-750:]
+    for standardize in (False, True):
+        report = analyze_spectrum(X, standardize=standardize)
+        for entry in CLEANERS:
+            est = entry.cls(standardize=standardize)
+            if "random_state" in est.get_params():
+                est.set_params(random_state=0)
+            count = est.fit(X).n_signal_
+            assert count == report.n_signal, (entry.name, standardize)

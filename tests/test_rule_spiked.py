@@ -14,7 +14,7 @@ from rmtclean.rules._spiked import (
     spike_shrink,
 )
 from rmtclean.rules._types import CleanedEigenvalues
-from rmtclean.spectrum import fit_bulk
+from rmtclean.spectrum import detect_signal, fit_bulk
 
 SQRT3 = np.sqrt(3.0)
 OPERATOR_LOSSES = ("operator", "operator-precision", "operator-whitened")
@@ -300,12 +300,12 @@ def test_noise_variance_estimate(n_samples, n_features, spikes):
     scale = np.ones(n_features)
     scale[: len(spikes)] = spikes
     scale = np.sqrt(s2 * scale)
-    estimates = {"bulk-fit": [], "median": []}
+    estimates = {"report": [], "median": []}
     for _ in range(30):
         X = rng.standard_normal((n_samples, n_features)) * scale
         values = np.linalg.eigvalsh(X.T @ X / n_samples)[::-1]
         values = values[: min(n_samples, n_features)]
-        for method, given in [("bulk-fit", None), ("median", "median")]:
+        for method, given in [("report", None), ("median", "median")]:
             result = spike_shrink(values, n_samples, n_features, noise_variance=given)
             assert result.details.noise_variance_method == method
             estimates[method].append(result.details.noise_variance)
@@ -318,20 +318,23 @@ def test_noise_variance_estimate(n_samples, n_features, spikes):
         sample = np.array(sample)
         standard_error = sample.std(ddof=1) / np.sqrt(sample.size)
         assert abs(sample.mean() - s2) < 4 * standard_error
-    assert np.std(estimates["bulk-fit"]) < np.std(estimates["median"])
+    assert np.std(estimates["report"]) < np.std(estimates["median"])
 
 
-def test_bulk_fit_sets_aside_the_separated_eigenvalues():
-    # The default estimate is fit_bulk with the k eigenvalues the median pass
-    # finds above the edge set aside.
+def test_default_takes_the_report_noise_and_count():
+    # [computed] The default estimate is the spectrum report's: fit_bulk with
+    # the signal eigenvalues of detect_signal (stopped at the fitted bulk
+    # edge) set aside, and only those are shrunk as spikes.
     rng = np.random.default_rng(8)
     X = rng.standard_normal((300, 100)) * np.r_[6.0, 4.0, np.ones(98)]
     values = np.linalg.eigvalsh(X.T @ X / 300)[::-1]
-    _, k = _median_noise_variance(values, 300, 100)
+    k = detect_signal(values, 300, 100).n_signal
     assert k == 2
     expected = fit_bulk(values, 300, 100, n_signal=2).noise_variance
     result = spike_shrink(values, 300, 100)
     assert result.details.noise_variance == expected
+    assert result.n_signal == 2
+    np.testing.assert_array_equal(result.values[2:], expected)
 
 
 def test_round_off_zeros_left_out_of_the_estimate():
@@ -351,6 +354,7 @@ def test_round_off_zeros_left_out_of_the_estimate():
         spike_shrink(values, 200, 100, noise_variance="median").details.noise_variance
         == median
     )
+    k = detect_signal(values[:60], 200, 100).n_signal
     assert spike_shrink(values, 200, 100).details.noise_variance == (
         fit_bulk(values[:60], 200, 100, n_signal=k).noise_variance
     )

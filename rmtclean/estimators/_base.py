@@ -94,6 +94,20 @@ MISSING_FLOOR = 1e-8
 WEAK_DOF = 3
 
 
+def _report_count(spectrum: SampleSpectrum) -> int | None:
+    """The signal count of rmtclean.analyze_spectrum on this sample spectrum.
+
+    One count per data set: estimators whose rule uses no count report the
+    spectrum report's (None when the spectrum is too small for a bulk fit).
+    """
+    from rmtclean.spectrum._report import detect_noise_and_signal
+
+    found = detect_noise_and_signal(
+        spectrum.eigenvalues, spectrum.n_samples, spectrum.n_features
+    )
+    return None if found is None else found.n_signal
+
+
 class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovariance):
     """Base class: sample spectrum -> rule -> cleaned spectrum.
 
@@ -462,6 +476,8 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         self.sample_eigenvalues_ = spectrum.full_eigenvalues()
         self.eigenvalues_ = result.full_eigenvalues()
         self.eigenvectors_ = result.eigenvectors
+        if n_signal is None:
+            n_signal = _report_count(spectrum)
         self.n_signal_ = None if n_signal is None else int(n_signal)
         self.scale_ = spectrum.scale
         self.degrees_of_freedom_ = float(spectrum.n_samples)

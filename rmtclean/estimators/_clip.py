@@ -21,13 +21,18 @@ _DOC = r"""Covariance with the noise eigenvalues clipped to their mean.
 
     Parameters
     ----------
-    edge : {"bulk-fit", "tracy-widom"} or float, default="bulk-fit"
-        Where the noise ends: the upper edge of the Marchenko-Pastur law
-        fitted to the bulk (``"bulk-fit"``), the count of the sequential
-        Tracy-Widom tests at level ``alpha`` (``"tracy-widom"``), or a fixed
-        eigenvalue level (of the correlation matrix when ``standardize``).
+    edge : {"auto", "bulk-fit", "tracy-widom"} or float, default="auto"
+        Where the noise ends: the signal count of
+        :func:`rmtclean.analyze_spectrum` on the same data and options
+        (``"auto"``: Tracy-Widom tests at level ``alpha`` stopped at the
+        edge of the Marchenko-Pastur law fitted to the whole spectrum), the
+        upper edge of that fitted law alone (``"bulk-fit"``), the count of
+        the sequential Tracy-Widom tests alone (``"tracy-widom"``), or a
+        fixed eigenvalue level (of the correlation matrix when
+        ``standardize``).
     alpha : float, default=0.05
-        Level of the Tracy-Widom tests (``edge="tracy-widom"`` only).
+        Level of the Tracy-Widom tests (``edge="auto"`` or
+        ``"tracy-widom"``).
     n_keep : int or None, default=None
         Keep exactly the ``n_keep`` largest eigenvalues; overrides ``edge``.
 %(eigen_solver)s
@@ -98,7 +103,7 @@ class EigenClip(OneBulkValue, SpectralCovariance):
     _parameter_specs: dict = {
         **OneBulkValue._eigen_solver_spec,
         "edge": [
-            Options({"bulk-fit", "tracy-widom"}),
+            Options({"auto", "bulk-fit", "tracy-widom"}),
             Interval(float, 0.0, None, closed="left"),
         ],
         "alpha": [Interval(float, 0.0, 1.0, closed="neither")],
@@ -108,7 +113,7 @@ class EigenClip(OneBulkValue, SpectralCovariance):
     def __init__(
         self,
         *,
-        edge="bulk-fit",
+        edge="auto",
         alpha=0.05,
         n_keep=None,
         store_precision=True,

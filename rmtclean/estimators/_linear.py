@@ -29,11 +29,18 @@ from rmtclean.rules._linear import (
 )
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import DENSE_LIMIT, CleanedSpectrum, SampleSpectrum
+from rmtclean.spectrum._report import detect_noise_and_signal
 
 __all__ = ["LinearShrink"]
 
 #: Fitted attributes that the direct dense fit computes on first use.
-_DEFERRED = ("spectrum_", "eigenvalues_", "eigenvectors_", "sample_eigenvalues_")
+_DEFERRED = (
+    "spectrum_",
+    "eigenvalues_",
+    "eigenvectors_",
+    "sample_eigenvalues_",
+    "n_signal_",
+)
 
 _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
 
@@ -92,8 +99,11 @@ _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
     eigenvectors_ : ndarray of shape (n_features, n_components)
         The sample eigenvectors (identity target) or those of the shrunk
         matrix (other targets).
-    n_signal_ : None
-        Linear shrinkage computes no bulk edge.
+    n_signal_ : int or None
+        The signal count of :func:`rmtclean.analyze_spectrum` on the same
+        sample spectrum (the rule does not use it; one count per data set).
+        None when there are fewer than 3 nonzero eigenvalues or degrees of
+        freedom.
     scale_ : ndarray of shape (n_features,) or None
         Column standard deviations when ``standardize``.
     degrees_of_freedom_ : float
@@ -301,14 +311,13 @@ class LinearShrink(SpectralCovariance):
         out_dtype = X.dtype if X.dtype == np.float32 else np.float64
         for name in _DEFERRED:
             self.__dict__.pop(name, None)
-        self._deferred = _DeferredSpectrum(cov, delta, self.target)
+        self._deferred = _DeferredSpectrum(cov, delta, self.target, dof)
         self.location_ = location
         self.covariance_ = cov.astype(out_dtype, copy=False)
         self.precision_ = (
             None if precision is None else precision.astype(out_dtype, copy=False)
         )
         self.shrinkage_ = delta
-        self.n_signal_ = None
         self.scale_ = None
         self.volatility_ = None
         self.degrees_of_freedom_ = n
@@ -415,7 +424,8 @@ class _DeferredSpectrum:
     is recovered as ``S = (cov - delta F) / (1 - delta)`` for ``delta < 1``.
     """
 
-    def __init__(self, covariance: np.ndarray, delta: float, target: str):
+    def __init__(self, covariance, delta: float, target: str, dof: float):
+        self._dof = dof
         self._cov = covariance
         self._delta = delta
         self._target = target
@@ -431,10 +441,13 @@ class _DeferredSpectrum:
             else:
                 S = (cov - delta * _target(cov, self._target)) / (1.0 - delta)
                 sample = np.linalg.eigvalsh(S)[::-1]
+            sample = np.maximum(sample, 0.0)
+            found = detect_noise_and_signal(sample, self._dof, cov.shape[0])
             self._cache = {
                 "spectrum_": spectrum,
                 "eigenvalues_": spectrum.full_eigenvalues(),
                 "eigenvectors_": spectrum.eigenvectors,
-                "sample_eigenvalues_": np.maximum(sample, 0.0),
+                "sample_eigenvalues_": sample,
+                "n_signal_": None if found is None else found.n_signal,
             }
         return self._cache[name]

@@ -59,7 +59,9 @@ _DOC = r"""Optimal eigenvalue shrinkage in the spiked covariance model.
         shrunk spikes first, then ``noise_variance_``.
 %(eigenvectors)s
     n_signal_ : int
-        Number of sample eigenvalues above the bulk edge.
+        Number of eigenvalues shrunk as spikes: by default the signal count
+        of :func:`rmtclean.analyze_spectrum` on the same spectrum; with a
+        given or ``"median"`` noise variance, those above the bulk edge.
     noise_variance_ : float
         The noise variance used (given or estimated).
     spike_inversion_ : SpikeInversion

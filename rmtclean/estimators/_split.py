@@ -71,8 +71,11 @@ _DOC = r"""Split-sample shrinkage: eigenvectors from one part, variances from th
         (not sorted); the null space's common value last.
     eigenvectors_ : ndarray of shape (n_features, n_components)
         The full-sample eigenvectors.
-    n_signal_ : None
-        The rule computes no bulk edge.
+    n_signal_ : int or None
+        The signal count of :func:`rmtclean.analyze_spectrum` on the same
+        sample spectrum (the rule does not use it; one count per data set).
+        None when there are fewer than 3 nonzero eigenvalues or degrees of
+        freedom.
     train_size_ : int
         Rows in the train part of each split (``T - 1`` for leave-one-out).
     train_size_criterion_ : dict or None

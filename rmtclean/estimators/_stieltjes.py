@@ -56,8 +56,11 @@ _DOC = r"""Rotationally invariant estimator (RIE) of the covariance.
         The cleaned eigenvalues, paired with ``sample_eigenvalues_``.
     eigenvectors_ : ndarray of shape (n_features, n_components)
         The sample eigenvectors.
-    n_signal_ : None
-        The rule computes no bulk edge.
+    n_signal_ : int or None
+        The signal count of :func:`rmtclean.analyze_spectrum` on the same
+        sample spectrum (the rule does not use it; one count per data set).
+        None when there are fewer than 3 nonzero eigenvalues or degrees of
+        freedom.
     eta_ : float
         ``eta`` times ``tr(S)/N``: the absolute offset (``"uniform"``), or
         the offset at an eigenvalue equal to the mean (``"relative"``).

@@ -21,7 +21,7 @@ from rmtclean.spectrum._edge import (
 
 __all__ = ["eigen_clip"]
 
-_EDGES = ("bulk-fit", "tracy-widom")
+_EDGES = ("auto", "bulk-fit", "tracy-widom")
 
 
 def _bulk_fit_count(values, n_samples, n_features):
@@ -62,6 +62,16 @@ def _eigen_clip(values, n_samples, n_features, edge, n_keep, alpha):
     if n_keep is not None:
         k = min(n_keep, values.size - 1)
         details["edge"] = "n_keep"
+    elif isinstance(edge, str) and edge == "auto":
+        from rmtclean.spectrum._report import detect_noise_and_signal
+
+        found = detect_noise_and_signal(nonzero, n_samples, n_features, alpha)
+        k = found.n_signal
+        details.update(
+            edge=found.bulk_edge,
+            noise_variance=found.noise_variance,
+            p_values=found.test.p_values,
+        )
     elif isinstance(edge, str) and edge == "tracy-widom":
         high = min(nonzero.size - 1, math.ceil(n_samples) - 2)
         test = _detect_signal(
@@ -100,7 +110,7 @@ def eigen_clip(
     n_samples: float,
     n_features: int,
     *,
-    edge: str | float = "bulk-fit",
+    edge: str | float = "auto",
     n_keep: int | None = None,
     alpha: float = 0.05,
 ) -> CleanedEigenvalues:
@@ -117,10 +127,15 @@ def eigen_clip(
         demeaning).
     n_features : int
         Dimension ``N``.
-    edge : {"bulk-fit", "tracy-widom"} or float, default="bulk-fit"
-        Where the noise ends. ``"bulk-fit"``: the upper edge of the
-        Marchenko-Pastur law fitted (minimum Cramer-von Mises distance, ratio
-        fixed) to the whole spectrum (Laloux et al. [1]_; see Notes).
+    edge : {"auto", "bulk-fit", "tracy-widom"} or float, default="auto"
+        Where the noise ends. ``"auto"``: the signal count of
+        :func:`rmtclean.analyze_spectrum` (the sequential Tracy-Widom tests at
+        level ``alpha``, stopped at the edge of the Marchenko-Pastur law
+        fitted to the whole spectrum), so that the clipping keeps exactly
+        the eigenvalues the spectrum report calls signal. ``"bulk-fit"``:
+        the upper edge of the Marchenko-Pastur law fitted (minimum
+        Cramer-von Mises distance, ratio fixed) to the whole spectrum
+        (Laloux et al. [1]_; see Notes).
         ``"tracy-widom"``: the number of signal eigenvalues found by
         :func:`rmtclean.spectrum.detect_signal` at level ``alpha``. A float:
         keep the eigenvalues strictly above this value.
@@ -129,7 +144,8 @@ def eigen_clip(
         ``n_components - 1`` are kept (larger values are capped): when
         ``n_features <= n_samples`` that is the sample spectrum itself.
     alpha : float, default=0.05
-        Level of the Tracy-Widom tests (``edge="tracy-widom"`` only).
+        Level of the Tracy-Widom tests (``edge="auto"`` or
+        ``"tracy-widom"``).
 
     Returns
     -------

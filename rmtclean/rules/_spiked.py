@@ -73,6 +73,7 @@ closed forms of Donoho, Gavish & Johnstone.
 
 from __future__ import annotations
 
+import dataclasses
 from collections.abc import Callable
 from functools import lru_cache
 from types import MappingProxyType
@@ -237,9 +238,22 @@ def _spike_shrink(
     n_features: int,
     shrinker: Callable,
     noise_variance: float,
+    n_signal: int | None = None,
 ) -> tuple[np.ndarray, int, SpikeInversion]:
-    """Core of :func:`spike_shrink` on validated input."""
+    """Core of :func:`spike_shrink` on validated input.
+
+    ``n_signal`` (the spectrum report's count) limits the spikes to the
+    largest ``n_signal`` eigenvalues; None keeps all above the edge.
+    """
     inversion = _invert_spikes(eigenvalues, n_features / n_samples, noise_variance)
+    if n_signal is not None:
+        keep = np.arange(eigenvalues.size) < n_signal
+        inversion = dataclasses.replace(
+            inversion,
+            spikes=np.where(keep, inversion.spikes, noise_variance),
+            overlaps=np.where(keep, inversion.overlaps, 0.0),
+            is_signal=inversion.is_signal & keep,
+        )
     eta = shrinker(inversion.spikes / noise_variance, inversion.overlaps)
     values = noise_variance * np.where(inversion.is_signal, eta, 1.0)
     return values, inversion.n_signal, inversion
@@ -277,19 +291,22 @@ def spike_shrink(
         table of losses and formulas).
     noise_variance : float, "median" or None, default=None
         Noise variance ``s2``, or how to estimate it (see Notes): ``None``
-        fits the Marchenko-Pastur law to the bulk with
-        :func:`rmtclean.spectrum.fit_bulk`; ``"median"`` uses median
-        matching alone.
+        takes the noise variance and the signal count of
+        :func:`rmtclean.analyze_spectrum` (only the eigenvalues it calls
+        signal are shrunk as spikes); ``"median"`` uses median matching
+        alone.
 
     Returns
     -------
     CleanedEigenvalues
         ``values`` in the input order; ``null_value`` is ``s2`` when
         ``n_components < n_features``, else ``None``; ``n_signal`` is the
-        number of eigenvalues above the bulk edge. ``details`` (a
+        number of eigenvalues shrunk as spikes (the spectrum report's count
+        by default, else those above the bulk edge). ``details`` (a
         :class:`SpikeDetails`) holds
-        ``noise_variance``, ``noise_variance_method`` (``"given"``,
-        ``"bulk-fit"`` or ``"median"``), ``loss``,
+        ``noise_variance``, ``noise_variance_method`` (``"report"``,
+        ``"given"``, ``"bulk-fit"`` for spectra too small for the report, or
+        ``"median"``), ``loss``,
         ``bulk_edge`` and ``inversion``, the
         :class:`~rmtclean.spectrum._spikes.SpikeInversion` used.
 
@@ -366,7 +383,15 @@ def spike_shrink(
             f"The 'loss' parameter of {name} must be one of "
             f"{sorted(SPIKE_SHRINKERS)}. Got {loss!r} instead."
         )
-    if noise_variance is None or (
+    count = None
+    found = None
+    if noise_variance is None:
+        from rmtclean.spectrum._report import detect_noise_and_signal
+
+        found = detect_noise_and_signal(values, n_samples, n_features)
+    if found is not None:
+        method, s2, count = "report", found.noise_variance, found.n_signal
+    elif noise_variance is None or (
         isinstance(noise_variance, str) and noise_variance == "median"
     ):
         method = "bulk-fit" if noise_variance is None else "median"
@@ -380,7 +405,7 @@ def spike_shrink(
             expected="None, 'median' or a positive finite real number",
         )
     cleaned, n_signal, inversion = _spike_shrink(
-        values, n_samples, n_features, SPIKE_SHRINKERS[loss], s2
+        values, n_samples, n_features, SPIKE_SHRINKERS[loss], s2, count
     )
     return CleanedEigenvalues(
         values=cleaned,

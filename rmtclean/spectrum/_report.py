@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 
@@ -210,6 +211,51 @@ def _bulk_model(values, n, n_features, k, fix_ratio):
     return fit, q, s2, s2 * (1.0 + math.sqrt(q)) ** 2
 
 
+class _Detection(NamedTuple):
+    n_signal: int
+    test: object  # EdgeTest
+    fit: object  # BulkFit with the signal set aside
+    ratio: float
+    noise_variance: float
+    bulk_edge: float
+    whole_edge: float
+
+
+def _detect(values, n, n_features, alpha, max_signal, constants, fix_ratio):
+    """The one signal detection (validated nonzero spectrum, max_signal set)."""
+    # One fit to the whole spectrum, ratio fixed (or free), sets the level no
+    # signal eigenvalue may fall under: refitting without the signal at each
+    # step would lower it and, on spectra that are not Marchenko-Pastur,
+    # cascade into the bulk.
+    whole_edge = _bulk_model(values, n, n_features, 0, fix_ratio)[3]
+    test = _detect_signal(
+        values, n, n_features, alpha, max_signal, constants, None, True, whole_edge
+    )
+    k = test.n_signal
+    fit, q, s2, edge = _bulk_model(values, n, n_features, k, fix_ratio)
+    while k and not values[k - 1] > edge:  # a consistent report by construction
+        k -= 1
+        fit, q, s2, edge = _bulk_model(values, n, n_features, k, fix_ratio)
+    return _Detection(k, test, fit, q, s2, edge, whole_edge)
+
+
+def detect_noise_and_signal(values, n_samples, n_features, alpha=0.05):
+    """The report's count and noise variance for a validated spectrum, or None.
+
+    For the rules (``eigen_clip(edge="auto")``, ``spike_shrink``) and the
+    estimators' ``n_signal_``: the same detection as
+    :func:`spectrum_report` with its default options. None when the
+    spectrum is too small to fit a bulk (fewer than 3 nonzero eigenvalues or
+    degrees of freedom).
+    """
+    n = float(n_samples)
+    values = values[: _numerical_rank(values, n)]
+    if values.size < 3 or math.ceil(n) < 3:
+        return None
+    high = min(values.size - 2, math.ceil(n) - 2)
+    return _detect(values, n, n_features, alpha, high, DEFAULT_CONSTANTS, True)
+
+
 def spectrum_report(
     spectrum: SampleSpectrum,
     *,
@@ -266,19 +312,8 @@ def spectrum_report(
         values, n, max_signal, constants, None, function
     )
     max_signal = min(max_signal, high)
-    # One fit to the whole spectrum, ratio fixed (or free), sets the level no
-    # signal eigenvalue may fall under: refitting without the signal at each
-    # step would lower it and, on spectra that are not Marchenko-Pastur,
-    # cascade into the bulk.
-    whole_edge = _bulk_model(values, n, n_features, 0, fix_ratio)[3]
-    test = _detect_signal(
-        values, n, n_features, alpha, max_signal, constants, None, True, whole_edge
-    )
-    k = test.n_signal
-    fit, q, s2, edge = _bulk_model(values, n, n_features, k, fix_ratio)
-    while k and not values[k - 1] > edge:  # a consistent report by construction
-        k -= 1
-        fit, q, s2, edge = _bulk_model(values, n, n_features, k, fix_ratio)
+    found = _detect(values, n, n_features, alpha, max_signal, constants, fix_ratio)
+    k, test, fit, q, s2, edge, whole_edge = found
     spikes = _invert_spikes(values[:k], q, s2)
     messages = _fit_warnings(fit, q, k, n_features, n, fit_warning_level(fit.n_used))
     if k == max_signal and k < high:
