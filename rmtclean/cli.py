@@ -23,7 +23,7 @@ from rmtclean._cli_input import (
     load_returns,
     positive_rows,
 )
-from rmtclean._cli_messages import FLAGS, WarningLines, cli_language
+from rmtclean._cli_messages import FLAGS, WarningLines, cli_language, warn
 
 __all__ = ["DEFAULT_METHOD", "MIN_ROWS", "build_parser", "main"]
 
@@ -129,18 +129,34 @@ def _build_estimator(args):
     return est.set_params(**{k: v for k, v in wanted.items() if k in params})
 
 
-def _report_figure(est, frame, args):
-    from rmtclean.plotting import panel_grid, plot_shrinkage, plot_spectrum
+def _estimator_report(est, frame, args):
+    """The spectrum report of the fitted estimator's sample spectrum.
+
+    The same detection as ``rmtclean analyze`` and the estimator's
+    ``n_signal_`` (rmtclean.spectrum.spectrum_report), on the spectrum the
+    cleaner saw (weighted, standardised or volatility-scaled as asked).
+    """
+    from rmtclean.spectrum import spectrum_report
 
     k = est.spectrum_.n_components
-    n_features = frame.shape[1]
-    fig, (left, right) = panel_grid(2)
-    what = "correlation" if args.standardize else "covariance"
-    plot_spectrum(
+    standardized = bool(args.standardize or est.scale_ is not None)
+    return spectrum_report(
         est.sample_eigenvalues_[:k],
         est.degrees_of_freedom_,
-        n_features,
-        n_signal=est.n_signal_,
+        frame.shape[1],
+        standardized=standardized,
+        n_observations=frame.shape[0],
+    )
+
+
+def _report_figure(est, report, frame, args):
+    from rmtclean.plotting import panel_grid, plot_report, plot_shrinkage
+
+    n_features = frame.shape[1]
+    fig, (left, right) = panel_grid(2)
+    what = "correlation" if report.standardized else "covariance"
+    plot_report(
+        report,
         ax=left,
         title=f"sample {what} spectrum (N={n_features}, T={frame.shape[0]})",
     )
@@ -173,14 +189,27 @@ def _cmd_clean(args) -> int:
     matrix = (
         est.correlation_frame() if kind == "correlation" else est.covariance_frame()
     )
-    # Build everything before writing anything: a failure leaves no file.
-    fig = _report_figure(est, frame, args) if args.report else None
     target = args.out or "-"
     # Messages go to standard error when standard output carries the matrix.
     say = sys.stderr if target == "-" else sys.stdout
+    # The matrix first: a figure that cannot be drawn must not lose it.
     write_table(matrix, target)
-    if fig is not None:
-        _save_figure(fig, args.report)
+    report = None
+    try:
+        report = _estimator_report(est, frame, args)
+    except ValueError as exc:  # too small a spectrum for a bulk fit
+        warn(args, f"no spectrum report: {cli_language(exc)}")
+    if report is not None:
+        for message in report.warnings:
+            warn(args, message)
+    if args.report:
+        try:
+            if report is None:
+                raise ValueError("there is no spectrum report to draw")
+            _save_figure(_report_figure(est, report, frame, args), args.report)
+        except Exception as exc:  # the matrix is written; say what is missing
+            warn(args, f"the figure {args.report} was not written: {cli_language(exc)}")
+            args.report = None
     T, N = frame.shape
     signal = "not computed" if est.n_signal_ is None else str(est.n_signal_)
     where = "standard output" if target == "-" else target
@@ -209,7 +238,13 @@ def _spectrum_report(frame, args):
         spectrum = missing_sample_spectrum(
             frame.to_numpy(), method=args.missing, standardize=args.standardize
         )
-        return spectrum_report(spectrum, n_observations=frame.shape[0])
+        return spectrum_report(
+            spectrum.eigenvalues,
+            spectrum.n_samples,
+            spectrum.n_features,
+            standardized=spectrum.scale is not None,
+            n_observations=frame.shape[0],
+        )
     return analyze_spectrum(frame.to_numpy(), standardize=args.standardize)
 
 
@@ -222,15 +257,12 @@ def _cmd_analyze(args) -> int:
     frame = load_returns(args)
     args.columns = frame.columns
     report = _spectrum_report(frame, args)
+    for message in report.warnings:
+        warn(args, message)
     if args.json:
-        payload = {
-            "data": str(args.data),
-            "n_samples": int(frame.shape[0]),
-            "n_features": int(frame.shape[1]),
-            "standardize": bool(args.standardize),
-            "report": report.to_dict(),
-            "caution": CAUTION,
-        }
+        # One flat object: the report's own keys and types (README, "JSON
+        # output of analyze"), the file name and the caution.
+        payload = {"data": str(args.data), **report.to_dict(), "caution": CAUTION}
         print(json.dumps(payload, indent=2, default=_json_default))
     else:
         print(

@@ -18,6 +18,7 @@ import numpy as np
 __all__ = [
     "panel_grid",
     "plot_prial",
+    "plot_report",
     "plot_shrinkage",
     "plot_spectrum",
     "save_figure",
@@ -313,6 +314,122 @@ def _mp_density_of_bulk(bulk, n_samples: float, grid: np.ndarray) -> np.ndarray:
     return np.asarray(MarchenkoPastur(bulk.ratio, variance).pdf(grid), dtype=float)
 
 
+def _unit(level: float) -> float:
+    """A power of ten for the axis when eigenvalues are tiny or huge.
+
+    Variances of daily returns (1e-4 to 1e-5) printed in plain units give
+    tick labels that run into each other.
+    """
+    if level <= 0 or 1e-2 <= level < 1e3:
+        return 1.0
+    return 10.0 ** math.floor(math.log10(level))
+
+
+def _draw_spectrum(
+    ax, values, n_samples, n_features, bulk, edge, notes, scale, bins, ratio=None
+):
+    """Histogram, fitted density, edge, signal marks and notes on one axes."""
+    import textwrap
+
+    k = bulk.n_signal
+    if scale == "auto":
+        spread = bulk.statistic > _fit_warning_level(bulk.n_used)
+        scale = "log" if spread else "linear"
+    positive = values[values > 0]
+    weight = 1.0 / (n_features - k)
+    if scale == "log":
+        unit, far = 1.0, np.empty(0)
+        shown, bulk_values = positive, positive[positive <= values[k]]
+        count = int(np.clip(2 * math.sqrt(positive.size), 10, 40))
+        edges = np.geomspace(positive.min(), positive.max(), count + 1)
+        counts, _ = np.histogram(positive, bins=edges)
+        density = counts * weight / np.diff(np.log(edges))
+        grid = np.geomspace(
+            max(bulk.lower_edge, 1e-3 * bulk.upper_edge), bulk.upper_edge, 400
+        )[1:-1]
+        curve = grid * _mp_density_of_bulk(bulk, n_samples, grid)
+        ax.set_xscale("log")
+        ylabel = "density per unit of log eigenvalue"
+    else:
+        unit = _unit(edge)
+        limit = _FAR * edge
+        shown, far = values[values <= limit], values[values > limit]
+        bulk_values = values[k:][values[k:] <= limit]
+        edges = np.histogram_bin_edges(bulk_values, bins=bins)
+        width = edges[1] - edges[0]
+        if shown.size and shown.max() > edges[-1]:  # extend bins over the signal
+            extra = np.arange(edges[-1] + width, shown.max() + width, width)
+            edges = np.concatenate([edges, extra])
+        counts, _ = np.histogram(shown, bins=edges)
+        density = counts * weight / np.diff(edges)
+        grid = np.linspace(bulk.lower_edge, bulk.upper_edge, 400)[1:-1]
+        curve = _mp_density_of_bulk(bulk, n_samples, grid)
+        edges, density, grid, curve = edges / unit, density * unit, grid / unit, curve
+        curve = curve * unit
+        ylabel = "density"
+    ax.stairs(
+        density, edges, fill=True, color="tab:blue", alpha=0.35, label="eigenvalues"
+    )
+    ax.plot(
+        grid,
+        curve,
+        color="tab:red",
+        lw=1.6,
+        label=f"Marchenko-Pastur fit (q={ratio or bulk.ratio:.3g}, "
+        f"KS {bulk.statistic:.2g})",
+    )
+    ax.axvline(
+        edge / unit, color="tab:red", ls="--", lw=1, label=f"bulk edge {edge:.3g}"
+    )
+    if k:
+        signal = values[:k][values[:k] <= (np.inf if scale == "log" else _FAR * edge)]
+        word = "eigenvalue" if k == 1 else "eigenvalues"
+        ax.plot(
+            signal / unit,
+            np.zeros(signal.size),
+            "v",
+            color="black",
+            ms=6,
+            clip_on=False,
+            label=f"{k} signal {word}",
+        )
+    if far.size:
+        ax.annotate(
+            f"{far.size} beyond, up to {far.max():.3g} \u2192",
+            xy=(0.98, 0.5),
+            xycoords="axes fraction",
+            ha="right",
+            va="center",
+            fontsize=8,
+        )
+    if notes:
+        # Under the axes, where it hides no data; constrained layout makes room.
+        text = "\n".join(textwrap.fill(f"warning: {note}", 78) for note in notes)
+        ax.annotate(
+            text,
+            xy=(0.0, 0.0),
+            xycoords=("axes fraction", ax.xaxis.label),
+            xytext=(0, -3),
+            textcoords="offset points",
+            ha="left",
+            va="top",
+            fontsize=6.5,
+            color="darkred",
+        )
+    xlabel = "sample eigenvalue"
+    if unit != 1.0:
+        xlabel += f" (units of {unit:.0e})"
+    ax.set_xlabel(xlabel)
+    ax.set_ylabel(ylabel)
+    ax.legend(fontsize=7, loc="upper right")
+
+
+def _fit_warning_level(n_used):
+    from rmtclean.spectrum._report import fit_warning_level
+
+    return fit_warning_level(n_used)
+
+
 def plot_spectrum(
     eigenvalues,
     n_samples: float,
@@ -323,6 +440,7 @@ def plot_spectrum(
     bins: int | str = "auto",
     ax=None,
     title: str | None = None,
+    scale: str = "auto",
 ):
     """Histogram of a sample spectrum with the fitted Marchenko-Pastur density.
 
@@ -343,23 +461,36 @@ def plot_spectrum(
         Eigenvalues set aside as signal before the fit; by default
         :func:`rmtclean.spectrum.detect_signal` decides.
     bins : int or str, default="auto"
-        Histogram bins, as for :func:`numpy.histogram_bin_edges`.
+        Histogram bins on a linear axis, as for
+        :func:`numpy.histogram_bin_edges`.
     ax : matplotlib.axes.Axes, optional
     title : str, optional
+    scale : {"auto", "linear", "log"}, default="auto"
+        Eigenvalue axis. ``"auto"`` takes ``"log"`` when the fitted law does
+        not describe the bulk (its Kolmogorov-Smirnov distance above the
+        warning level of :func:`rmtclean.analyze_spectrum`): the spectrum then
+        spreads over decades that a linear axis squeezes into one bar.
 
     Returns
     -------
     matplotlib.figure.Figure
+
+    See Also
+    --------
+    plot_report : the same figure for a :class:`~rmtclean.SpectrumReport`.
 
     Notes
     -----
     Each eigenvalue carries weight :math:`1/(N - k)` (``k`` signal
     eigenvalues), so the bulk's bars have the area of the continuous part
     of the fitted law, :math:`\\min(1, 1/q)` for ratio :math:`q`: the curve
-    and the bars are on the same scale for N > T as well. Signal
-    eigenvalues are marked on the axis; the vertical line is the fitted
-    upper edge of the bulk. Eigenvalues beyond 5 times that edge are left
-    out of the axes and counted in a note on the right.
+    and the bars are on the same scale for N > T as well. On a log axis
+    both are densities per unit of :math:`\\log\\lambda` (the curve is
+    :math:`\\lambda f(\\lambda)`). Signal eigenvalues are marked on the axis;
+    the vertical line is the fitted upper edge of the bulk. On a linear axis
+    eigenvalues beyond 5 times that edge are left out and counted in a note
+    on the right, and tiny or huge eigenvalues (daily-return variances) are
+    drawn in units of a power of ten named in the axis label.
 
     Examples
     --------
@@ -373,65 +504,90 @@ def plot_spectrum(
     """
     from rmtclean.spectrum import detect_signal, fit_bulk
 
+    _check_scale(scale, "plot_spectrum")
     fig, ax = _single_axes(ax)
     values = np.asarray(eigenvalues, dtype=float).ravel()
     if bulk is None:
         if n_signal is None:
             n_signal = detect_signal(values, n_samples, n_features).n_signal
         bulk = fit_bulk(values, n_samples, n_features, n_signal=n_signal)
-    k = bulk.n_signal
-    limit = _FAR * bulk.upper_edge
-    shown = values[values <= limit]
-    far = values[values > limit]
-    edges = np.histogram_bin_edges(values[k:][values[k:] <= limit], bins=bins)
-    width = edges[1] - edges[0]
-    if shown.size and shown.max() > edges[-1]:  # extend bins over the signal
-        extra = np.arange(edges[-1] + width, shown.max() + width, width)
-        edges = np.concatenate([edges, extra])
-    counts, _ = np.histogram(shown, bins=edges)
-    density = counts / ((n_features - k) * np.diff(edges))
-    ax.stairs(density, edges, fill=True, color="tab:blue", alpha=0.35, label="sample")
-    grid = np.linspace(bulk.lower_edge, bulk.upper_edge, 400)[1:-1]
-    ax.plot(
-        grid,
-        _mp_density_of_bulk(bulk, n_samples, grid),
-        color="tab:red",
-        lw=1.6,
-        label=f"Marchenko-Pastur fit (q={bulk.ratio:.3g})",
+    _draw_spectrum(
+        ax, values, n_samples, n_features, bulk, bulk.upper_edge, (), scale, bins
     )
-    ax.axvline(
-        bulk.upper_edge,
-        color="tab:red",
-        ls="--",
-        lw=1,
-        label=f"bulk edge {bulk.upper_edge:.3g}",
-    )
-    if k:
-        signal = values[:k][values[:k] <= limit]
-        ax.plot(
-            signal,
-            np.zeros(signal.size),
-            "v",
-            color="black",
-            ms=6,
-            clip_on=False,
-            label=f"{k} signal",
-        )
-    if far.size:
-        ax.annotate(
-            f"{far.size} beyond, up to {far.max():.3g} \u2192",
-            xy=(0.98, 0.5),
-            xycoords="axes fraction",
-            ha="right",
-            va="center",
-            fontsize=8,
-        )
-    ax.set_xlabel("sample eigenvalue")
-    ax.set_ylabel("density")
     if title:
         ax.set_title(title)
-    ax.legend(fontsize=7, loc="upper right")
     return fig
+
+
+def plot_report(report, *, ax=None, title: str | None = None, scale: str = "auto"):
+    """The figure of a spectrum report: what it counts and how well it fits.
+
+    Parameters
+    ----------
+    report : rmtclean.SpectrumReport
+        From :func:`rmtclean.analyze_spectrum` or
+        :func:`rmtclean.spectrum.spectrum_report`.
+    ax : matplotlib.axes.Axes, optional
+    title : str, optional
+    scale : {"auto", "linear", "log"}, default="auto"
+        As for :func:`plot_spectrum`; ``"auto"`` takes ``"log"`` when the
+        report warns that the fitted law does not describe the spectrum.
+
+    Returns
+    -------
+    matplotlib.figure.Figure
+
+    Notes
+    -----
+    The histogram of the sample eigenvalues, the Marchenko-Pastur law fitted
+    to the bulk with the ``n_signal`` signal eigenvalues set aside (its ratio
+    and Kolmogorov-Smirnov distance in the legend), the report's bulk edge,
+    the signal eigenvalues marked on the axis ("15 signal eigenvalues") and
+    the report's warnings written on the figure.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from rmtclean import analyze_spectrum
+    >>> from rmtclean.plotting import plot_report
+    >>> rng = np.random.default_rng(0)
+    >>> X = rng.standard_normal((400, 100)) * np.r_[3.0, np.ones(99)]
+    >>> fig = plot_report(analyze_spectrum(X))
+    >>> [line.get_label() for line in fig.axes[0].lines][-1]
+    '1 signal eigenvalue'
+    """
+    from rmtclean.spectrum import fit_bulk
+
+    _check_scale(scale, "plot_report")
+    fig, ax = _single_axes(ax)
+    n, n_features = report.degrees_of_freedom, report.n_features
+    values = np.asarray(report.eigenvalues, dtype=float)
+    bulk = fit_bulk(values, n, n_features, n_signal=report.n_signal)
+    if scale == "auto":
+        scale = "log" if report.warnings else "linear"
+    _draw_spectrum(
+        ax,
+        values,
+        n,
+        n_features,
+        bulk,
+        report.bulk_edge,
+        report.warnings,
+        scale,
+        "auto",
+        report.ratio,
+    )
+    if title:
+        ax.set_title(title)
+    return fig
+
+
+def _check_scale(scale, function: str) -> None:
+    if scale not in ("auto", "linear", "log"):
+        raise ValueError(
+            f"The 'scale' parameter of {function} must be 'auto', 'linear' or "
+            f"'log'. Got {scale!r} instead."
+        )
 
 
 def save_figure(fig, path, *, dpi: float | None = None) -> Path:

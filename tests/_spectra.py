@@ -24,3 +24,13 @@ def spiked_spectrum(rng, n_rows, n_features, variance, spikes=()):
     scales[: len(spikes)] = np.sqrt(spikes)
     spec = sample_spectrum(rng.standard_normal((n_rows, n_features)) * scales)
     return spec.eigenvalues, spec.n_samples
+
+
+def report_count(est):
+    """The spectrum report's count on a fitted estimator's sample spectrum."""
+    from rmtclean.spectrum import spectrum_report
+
+    values = est.sample_eigenvalues_
+    dof = est.degrees_of_freedom_
+    nonzero = values[: min(values.size, int(np.ceil(dof)))]
+    return spectrum_report(nonzero, dof, values.size).n_signal

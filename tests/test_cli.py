@@ -211,12 +211,17 @@ def test_analyze_text_and_json(returns_csv, capsys):
     assert code == 0, err
     payload = json.loads(stdout)
     assert payload["caution"] == CAUTION
-    assert payload["n_samples"] == frame.shape[0]
+    assert payload["data"] == str(path)
+    assert payload["n_observations"] == frame.shape[0]
     assert payload["n_features"] == frame.shape[1]
     from rmtclean.spectrum import analyze_spectrum
 
     ref = analyze_spectrum(frame.to_numpy(), standardize=False).to_dict()
-    assert payload["report"] == json.loads(json.dumps(ref, default=float))
+    # the report's keys and types, flat: ints stay ints, lists stay lists
+    assert {k: v for k, v in payload.items() if k not in ("data", "caution")} == ref
+    assert isinstance(payload["n_observations"], int)
+    assert isinstance(payload["degrees_of_freedom"], float)
+    assert isinstance(payload["warnings"], list)
 
 
 def test_missing_values_and_half_life_options(returns_csv, tmp_path, capsys):

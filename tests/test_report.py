@@ -144,3 +144,18 @@ def test_bad_data(rng):
         analyze_spectrum(X)
     with pytest.raises(ValueError, match="at least 3"):
         analyze_spectrum(rng.standard_normal((3, 10)))
+
+
+def test_readme_documents_every_json_key(rng):
+    # The README's table of `rmtclean analyze --json` keys lists exactly the
+    # report's keys plus the file name and the caution.
+    import re
+    from pathlib import Path
+
+    readme = (Path(__file__).resolve().parents[1] / "README.md").read_text()
+    section = readme.split("## The spectrum report", 1)[1].split("\n## ", 1)[0]
+    documented = set()
+    for row in re.findall(r"^\| (`.*?) \|", section, flags=re.M):
+        documented |= set(re.findall(r"`(\w+)`", row))
+    keys = set(analyze_spectrum(spiked_data(rng, 101, 20)).to_dict())
+    assert documented == keys | {"data", "caution"}

@@ -8,7 +8,12 @@ from typing import NamedTuple
 
 import numpy as np
 
-from rmtclean.spectrum._bulk import _fit_bulk, _numerical_rank
+from rmtclean.spectrum._bulk import (
+    _check_eigenvalues,
+    _check_sizes,
+    _fit_bulk,
+    _numerical_rank,
+)
 from rmtclean.spectrum._edge import (
     DEFAULT_CONSTANTS,
     _check_alpha,
@@ -16,7 +21,7 @@ from rmtclean.spectrum._edge import (
     _check_edge_options,
     _detect_signal,
 )
-from rmtclean.spectrum._sample import SampleSpectrum, sample_spectrum
+from rmtclean.spectrum._sample import sample_spectrum
 from rmtclean.spectrum._spikes import _invert_spikes
 
 __all__ = ["SpectrumReport", "analyze_spectrum", "fit_warning_level", "spectrum_report"]
@@ -170,6 +175,8 @@ class SpectrumReport:
             if rank <= self.n_signal:
                 spike = f"{self.spike_strengths[rank - 1]:12.6g}"
                 overlap = f"{self.overlaps[rank - 1]:8.4f}"
+            elif p < self.alpha:  # rejected, but not above the threshold
+                spike, overlap = f"{'(at edge)':>12}", f"{'':>8}"
             else:
                 spike, overlap = f"{'(noise)':>12}", f"{'':>8}"
             lines.append(f"  {rank:>4}  {value:12.6g}  {p:10.3g}  {spike}  {overlap}")
@@ -257,13 +264,16 @@ def detect_noise_and_signal(values, n_samples, n_features, alpha=0.05):
 
 
 def spectrum_report(
-    spectrum: SampleSpectrum,
+    eigenvalues,
+    n_samples: float,
+    n_features: int,
     *,
+    standardized: bool = False,
+    n_observations: int | None = None,
     alpha: float = 0.05,
     constants: str = DEFAULT_CONSTANTS,
     max_signal: int | None = None,
     fix_ratio: bool = True,
-    n_observations: int | None = None,
 ) -> SpectrumReport:
     """The spectrum report of a sample spectrum already computed.
 
@@ -273,13 +283,22 @@ def spectrum_report(
 
     Parameters
     ----------
-    spectrum : SampleSpectrum
-        E.g. :func:`rmtclean.spectrum.sample_spectrum` or a fitted
-        estimator's sample spectrum.
-    alpha, constants, max_signal, fix_ratio
-        As for :func:`analyze_spectrum`.
+    eigenvalues : array_like of shape (n_components,)
+        Sample eigenvalues in descending order (the nonzero part; implicit
+        zeros beyond when ``n_features > n_samples``), e.g. a fitted
+        estimator's ``sample_eigenvalues_``.
+    n_samples : float
+        Degrees of freedom of the sample covariance (``T - 1`` after
+        demeaning; an estimator's ``degrees_of_freedom_``).
+    n_features : int
+        Dimension ``N``.
+    standardized : bool, default=False
+        Whether these are eigenvalues of a correlation matrix (for the
+        report's labels).
     n_observations : int, optional
         Rows of the data, for the report; default ``round(n_samples + 1)``.
+    alpha, constants, max_signal, fix_ratio
+        As for :func:`analyze_spectrum`.
 
     Returns
     -------
@@ -288,17 +307,19 @@ def spectrum_report(
     Examples
     --------
     >>> import numpy as np
-    >>> from rmtclean.spectrum import sample_spectrum, spectrum_report
+    >>> from rmtclean.spectrum import spectrum_report
     >>> X = np.random.default_rng(0).standard_normal((400, 100))
-    >>> spectrum_report(sample_spectrum(X)).n_signal
+    >>> eig = np.linalg.eigvalsh(np.cov(X, rowvar=False))[::-1]
+    >>> spectrum_report(eig, 399, 100).n_signal
     0
     """
     function = "analyze_spectrum"
+    n, n_features = _check_sizes(n_samples, n_features, function)
+    all_values = _check_eigenvalues(eigenvalues, n_features, function)
     alpha = _check_alpha(alpha, function)
     fix_ratio = _check_bool(fix_ratio, "fix_ratio", function)
-    n, n_features = float(spectrum.n_samples), int(spectrum.n_features)
     # rounding-error zeros (repeated rows, collinear columns) are null space
-    values = spectrum.eigenvalues[: _numerical_rank(spectrum.eigenvalues, n)]
+    values = all_values[: _numerical_rank(all_values, n)]
     if values.size < 3 or math.ceil(n) < 3:
         raise ValueError(
             f"{function} needs at least 3 nonzero sample eigenvalues and 3 degrees "
@@ -332,7 +353,7 @@ def spectrum_report(
         statistics=test.statistics,
         spike_strengths=spikes.spikes,
         overlaps=spikes.overlaps,
-        eigenvalues=spectrum.eigenvalues.copy(),
+        eigenvalues=all_values,
         bulk_statistic=fit.statistic,
         n_observations=int(round(n + 1))
         if n_observations is None
@@ -340,7 +361,7 @@ def spectrum_report(
         degrees_of_freedom=n,
         n_features=n_features,
         alpha=alpha,
-        standardized=spectrum.scale is not None,
+        standardized=bool(standardized),
         warnings=tuple(messages),
     )
 
@@ -450,7 +471,10 @@ def analyze_spectrum(
         standardize=standardize,
     )
     return spectrum_report(
-        spec,
+        spec.eigenvalues,
+        spec.n_samples,
+        spec.n_features,
+        standardized=spec.scale is not None,
         alpha=alpha,
         constants=constants,
         max_signal=max_signal,

