@@ -13,10 +13,10 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from rmtclean.cli import main
 from rmtclean.estimators import CLEANERS
 from rmtclean.spectrum import analyze_spectrum
 from tests._opendata import industry_returns
+from tests.test_cli import _run
 
 
 @pytest.fixture(scope="module")
@@ -25,12 +25,6 @@ def long_panel(tmp_path_factory):
     path = tmp_path_factory.mktemp("panel") / "industries.csv"
     frame.to_csv(path)
     return path, frame
-
-
-def _run(argv, capsys):
-    code = main([str(a) for a in argv])
-    out, err = capsys.readouterr()
-    return code, out, err
 
 
 @pytest.mark.parametrize("standardize", [False, True])

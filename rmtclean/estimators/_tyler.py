@@ -106,8 +106,10 @@ default="kernel"
     eigenvectors_ : ndarray of shape (n_features, n_components)
         Eigenvectors of the shape.
     n_signal_ : int or None
-        The rule's count of signal eigenvalues (``"clip"``, ``"spike"``),
-        else None.
+        The rule's count of signal eigenvalues on the spatial signs
+        (``"clip"``, ``"spike"``), else the signal count of
+        :func:`rmtclean.analyze_spectrum` on the sample spectrum (one count
+        per data set).
     shape_eigenvalues_ : ndarray of shape (n_features,)
         Eigenvalues of the shape, trace N.
     variance_level_ : float
@@ -329,4 +331,5 @@ class TylerShrink(SpectralCovariance):
 
     def _store(self, spectrum, cleaned, dtype) -> None:
         super()._store(spectrum, cleaned, dtype)
-        self.n_signal_ = self._n_signal
+        if self._n_signal is not None:  # else the spectrum report's, as set
+            self.n_signal_ = self._n_signal
