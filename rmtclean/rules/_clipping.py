@@ -17,6 +17,7 @@ from rmtclean.spectrum._edge import (
     _check_alpha,
     _check_level,
     _detect_signal,
+    _fitted_edge,
 )
 
 __all__ = ["eigen_clip"]
@@ -74,8 +75,18 @@ def _eigen_clip(values, n_samples, n_features, edge, n_keep, alpha):
         )
     elif isinstance(edge, str) and edge == "tracy-widom":
         high = min(nonzero.size - 1, math.ceil(n_samples) - 2)
+        # detect_signal's default: stopped at the fitted bulk edge
+        stop = _fitted_edge(nonzero, n_samples, n_features, None)
         test = _detect_signal(
-            nonzero, n_samples, n_features, alpha, max(high, 0), DEFAULT_CONSTANTS, None
+            nonzero,
+            n_samples,
+            n_features,
+            alpha,
+            max(high, 0),
+            DEFAULT_CONSTANTS,
+            None,
+            True,
+            stop,
         )
         k = test.n_signal
         details.update(
