@@ -149,7 +149,9 @@ _DOC = r"""The cleaner chosen by its held-out score, or a blend of cleaners.
         The cleaned eigenvalues, paired with ``sample_eigenvalues_``.
     eigenvectors_ : ndarray of shape (n_features, n_components)
     n_signal_ : int or None
-        The winner's (None for a blend).
+        The winner's; for a blend, the signal count of
+        :func:`rmtclean.analyze_spectrum` on the sample spectrum (one count
+        per data set).
     scale_ : ndarray of shape (n_features,) or None
     degrees_of_freedom_ : float
     volatility_ : ndarray of shape (n_features,) or None
