@@ -302,7 +302,6 @@ class AutoShrink(SpectralCovariance):
         return cls(**params)
 
     def _resolve_candidates(self, seed) -> tuple[list, list[str]]:
-
         owner = type(self).__name__
         if self.candidates is None:
             entries = [e for e in CLEANERS if not issubclass(e.cls, AutoShrink)]
@@ -534,7 +533,7 @@ class AutoShrink(SpectralCovariance):
     def _adopt(self, best) -> None:
         self.best_estimator_ = best
         for name in _DELEGATED:
-            setattr(self, name, getattr(best, name))
+            setattr(self, name, getattr(best, name, None))
         # The winner's precision, deferred as it was (formed on first access).
         self.precision_ = best.__dict__.get("_precision")
 
