@@ -17,13 +17,15 @@ _PARAMETER_DOC = (
         eigenvector, as ``numpy.linalg.eigh`` gives them; the same covariance
         to rounding. ``"randomized"``: forms neither the N x N covariance nor
         the T x T Gram matrix; randomized subspace iteration (Halko,
-        Martinsson & Tropp 2011) gives the leading eigenpairs, and the rest
-        of the spectrum is known only through the trace: ``%(randomized)s``.
+        Martinsson & Tropp 2011) gives the leading eigenpairs. The rest of
+        the spectrum is known only through its trace, so this route needs
+        %(randomized)s.
         ``sample_eigenvalues_`` then holds the computed eigenvalues followed
         by the mean of the others. It wins when T and N are both large and
         the signal count small (see the README's cost table); its error
         against the exact route is measured by benchmarks/bench_topk.py.
-        In-memory data only (not dask arrays, not ``missing`` with NaN).
+        Dask arrays are refused; data with missing entries (``missing``)
+        take the exact route.
 """
 )
 

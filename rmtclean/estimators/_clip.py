@@ -97,7 +97,7 @@ _DOC = r"""Covariance with the noise eigenvalues clipped to their mean.
 class EigenClip(OneBulkValue, SpectralCovariance):
     __doc__ = OneBulkValue.fill_doc(
         _DOC.replace("%(common)s", common_params_doc().rstrip("\n")),
-        "n_keep`` or a numeric ``edge",
+        "``n_keep`` or a numeric ``edge``",
     )
 
     _parameter_specs: dict = {

@@ -111,7 +111,7 @@ _DOC = r"""Optimal eigenvalue shrinkage in the spiked covariance model.
 class SpikeShrink(OneBulkValue, SpectralCovariance):
     __doc__ = OneBulkValue.fill_doc(
         _DOC.replace("%(common)s", common_params_doc().rstrip("\n")),
-        "noise_variance`` given as a number",
+        "``noise_variance`` given as a number",
     )
 
     _parameter_specs: dict = {
