@@ -33,7 +33,8 @@ Run::
 
 It prints the BLAS/thread setup first, then medians and ratios to the
 reference. The data have ``--spikes`` planted signal directions (variances
-from 6 down to 3, noise variance 1), so the rules keep about that many.
+``--spike-range``, from 6 down to 3 by default, noise variance 1), so the
+rules keep about that many.
 """
 
 from __future__ import annotations
@@ -56,9 +57,9 @@ from rmtclean import EigenClip, SpikeShrink  # noqa: E402
 from rmtclean.spectrum._partial import TridiagonalEigh  # noqa: E402
 
 
-def spiked(rng, n_samples: int, n_features: int, n_spikes: int) -> np.ndarray:
+def spiked(rng, n_samples, n_features, n_spikes, top=6.0, bottom=3.0) -> np.ndarray:
     sd = np.ones(n_features)
-    sd[:n_spikes] = np.sqrt(np.linspace(6.0, 3.0, n_spikes))
+    sd[:n_spikes] = np.sqrt(np.linspace(top, bottom, n_spikes))
     return rng.standard_normal((n_samples, n_features)) * sd
 
 
@@ -98,6 +99,11 @@ def main(argv=None) -> int:
     parser.add_argument("--n-features", type=int, default=2000)
     parser.add_argument("--n-samples", type=int, default=4000)
     parser.add_argument("--spikes", type=int, default=10)
+    parser.add_argument(
+        "--spike-range",
+        default="6,3",
+        help="largest,smallest planted variance (noise variance 1)",
+    )
     parser.add_argument("--repeats", type=int, default=5, help="timed runs each")
     parser.add_argument("--seed", type=int, default=0)
     parser.add_argument(
@@ -114,7 +120,8 @@ def main(argv=None) -> int:
         rng = np.random.default_rng(args.seed)
         for make in (EigenClip, SpikeShrink):  # warm the JIT and caches
             make().fit(spiked(rng, 80, 40, 3))
-        X = spiked(rng, args.n_samples, args.n_features, args.spikes)
+        top, bottom = (float(v) for v in args.spike_range.split(","))
+        X = spiked(rng, args.n_samples, args.n_features, args.spikes, top, bottom)
         S = np.cov(X, rowvar=False)
         k = EigenClip().fit(X).n_signal_
         n, t = args.n_features, args.n_samples
@@ -140,7 +147,7 @@ def main(argv=None) -> int:
         calls = X = S = None  # free the memory before the next tables
         for shape in filter(None, args.shapes.split(",")):
             n, t = (int(v) for v in shape.lower().split("x"))
-            randomized_table(spiked(rng, t, n, args.spikes), args)
+            randomized_table(spiked(rng, t, n, args.spikes, top, bottom), args)
     return 0
 
 
@@ -161,7 +168,10 @@ def randomized_table(X, args) -> None:
             calls[f"{name} {solver}"] = lambda make=make, s=solver: make(s).fit(X)
     med = timed(calls, args.repeats)
     ref = med["np.cov + np.linalg.eigh"]
-    print(f"Randomized route: N = {n}, T = {t}, {args.spikes} planted spikes")
+    print(
+        f"Randomized route: N = {n}, T = {t}, {args.spikes} planted spikes "
+        f"(variances {args.spike_range})"
+    )
     print(f"  {'':<30}{'median s':>10}{'/ reference':>13}{'/ partial':>11}")
     for name, value in med.items():
         partial = med.get(name.replace("randomized", "partial"), np.nan)
