@@ -12,7 +12,7 @@ _PARAMETER_DOC = (
         then eigenvectors only for the eigenvalues the rule moves off the
         bulk value (``n_signal_`` of them), so ``eigenvectors_`` has that
         many columns and ``spectrum_`` stores ``c I + V_k diag(d_k - c) V_k'``
-        (at N = 2000, T = 4000 the fit costs about 0.6 times ``np.cov`` plus
+        (at N = 2000, T = 4000 the fit costs 0.5 to 0.6 times ``np.cov`` plus
         ``np.linalg.eigh``; see benchmarks/bench_topk.py). ``"full"``: every
         eigenvector, as ``numpy.linalg.eigh`` gives them; the same covariance
         to rounding. ``"randomized"``: forms neither the N x N covariance nor
