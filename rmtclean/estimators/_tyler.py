@@ -52,9 +52,15 @@ _DOC = r"""Robust shape for heavy-tailed (elliptical) data, restored to a covari
     only, which the random scale does not touch:
 
     - ``rule="kernel"`` (default), ``"stieltjes"``, ``"linear"``,
-      ``"clip"``, ``"spike"``: the rows are self-normalised (spatial signs,
-      ``u_i = sqrt(N) x_i / ||x_i||``) and that cleaner of the registry runs
-      on their sample spectrum, with its default parameters;
+      ``"clip"``, ``"spike"``: that cleaner of the registry (default
+      parameters) inside Tyler's fixed point. The first pass cleans the
+      sample spectrum of the spatial signs ``u_i = sqrt(N) x_i / ||x_i||``;
+      each further pass cleans that of ``sqrt(N / d_i) u_i`` with ``d_i =
+      u_i' V^{-1} u_i``, ``V`` the previous cleaned shape (trace N), until
+      the ``d_i`` change by less than ``tol``. The reweighting makes the
+      estimate affine-aware: with a strong common factor the norms of raw
+      rows are mostly that factor, and the spatial signs alone
+      (``max_iter=1``) distort the shape badly.
     - ``rule="fixed-point"``: Tyler's (1987) M-estimator of shape, shrunk
       toward the identity with intensity ``shrinkage`` (default: the plug-in
       of Chen, Wiesel & Hero 2011); see :func:`rmtclean.rules.tyler_shape`.
@@ -79,10 +85,11 @@ default="kernel"
     scale_estimate : {"robust", "sample"}, default="robust"
         How the covariance level is restored (see above).
     tol : float, default=1e-10
-        Convergence tolerance of the fixed point (relative change of the row
-        weights).
-    max_iter : int, default=1000
-        Most fixed-point iterations.
+        Convergence tolerance of the fixed point (largest relative change of
+        a row weight ``d_i``).
+    max_iter : int, default=200
+        Most fixed-point iterations (``max_iter=1`` with a cleaner rule:
+        the cleaner on the spatial signs, without reweighting).
 %(common)s
     Attributes
     ----------
@@ -117,11 +124,10 @@ default="kernel"
     shrinkage_ : float or None
         The intensity used by ``rule="fixed-point"``; None otherwise.
     n_iter_ : int
-        Fixed-point iterations; 1 for the other rules (one pass over the
-        signs).
+        Fixed-point iterations run (passes of the cleaner for its rules).
     rule_estimator_ : SpectralCovariance or None
-        The cleaner applied to the spatial signs, with its fitted
-        by-products (e.g. ``bandwidth_``); None for ``"fixed-point"``.
+        The cleaner of the last pass, with its fitted by-products (e.g.
+        ``bandwidth_``); None for ``"fixed-point"``.
     scale_ : ndarray of shape (n_features,) or None
         Column scales (``standardize``, ``vol_half_life``).
     volatility_ : ndarray of shape (n_features,) or None
@@ -205,7 +211,7 @@ class TylerShrink(SpectralCovariance):
         shrinkage=None,
         scale_estimate="robust",
         tol=1e-10,
-        max_iter=1000,
+        max_iter=200,
         store_precision=True,
         assume_centered=False,
         standardize=False,
@@ -285,8 +291,38 @@ class TylerShrink(SpectralCovariance):
         return replace(sign_spectrum, n_samples=spectrum.n_samples)
 
     def _signs_cleaned(self, spectrum, signs):
+        """The rule's fixed point on Tyler-weighted rows, from the spatial signs.
+
+        Pass k cleans the sample spectrum of the rows ``sqrt(N / d_i) u_i``
+        with ``d_i = u_i' V_{k-1}^{-1} u_i`` (``V_0 = I``: the spatial signs
+        themselves) and normalises the result to trace N: ``V_k``.
+        """
         inner = _SIGN_RULES[self.rule](assume_centered=self.assume_centered)
-        sign_spectrum = self._sign_spectrum(spectrum, signs, inner._needs_samples)
+        p = spectrum.n_features
+        moving = np.any(signs != 0, axis=1)
+        d = np.full(signs.shape[0], float(p))
+        rows = signs
+        converged = False
+        n_iter = 0
+        while n_iter < self.max_iter:
+            n_iter += 1
+            vecs, values, null = self._clean_rows(inner, spectrum, rows)
+            d_new = _quadratic_forms(signs, vecs, values, null)
+            change = float(np.max(np.abs(d_new[moving] / d[moving] - 1.0), initial=0.0))
+            d = d_new
+            if change <= self.tol:
+                converged = True
+                break
+            factor = np.sqrt(np.divide(p, d, out=np.zeros_like(d), where=moving))
+            rows = signs * factor[:, None]
+        self._warn_unconverged(converged)
+        self.n_iter_ = n_iter
+        self.rule_estimator_ = inner
+        return vecs, values, null
+
+    def _clean_rows(self, inner, spectrum, rows):
+        """The inner rule on the sample spectrum of ``rows``; trace N."""
+        sign_spectrum = self._sign_spectrum(spectrum, rows, inner._needs_samples)
         try:
             cleaned = inner._clean(sign_spectrum)
         except ValueError as exc:
@@ -294,14 +330,28 @@ class TylerShrink(SpectralCovariance):
             raise ValueError(
                 f"TylerShrink.fit (rule={self.rule!r}, on the spatial signs): {message}"
             ) from exc
-        self.rule_estimator_ = inner
         if isinstance(cleaned, CleanedSpectrum):  # pragma: no cover - no such rule
             raise TypeError(f"rule {self.rule!r} is not rotation invariant")
         self._n_signal = cleaned.n_signal
         values = np.asarray(cleaned.values, dtype=np.float64)
-        has_null = sign_spectrum.n_components < spectrum.n_features
-        null = cleaned.null_value if has_null else None
+        p = spectrum.n_features
+        has_null = sign_spectrum.n_components < p
+        null = float(cleaned.null_value) if has_null else None
+        total = values.sum() + (p - values.size) * (null or 0.0)
+        if total > 0:
+            values = values * (p / total)
+            null = None if null is None else null * (p / total)
         return sign_spectrum.eigenvectors, values, null
+
+    def _warn_unconverged(self, converged: bool) -> None:
+        if not converged:
+            warnings.warn(
+                "TylerShrink.fit: the fixed point did not converge to "
+                f"tol={self.tol!r} in max_iter={self.max_iter!r} iterations; "
+                "the last iterate is used.",
+                NotConvergedWarning,
+                stacklevel=5,
+            )
 
     def _fixed_point(self, spectrum, signs):
         n = float(spectrum.n_samples)
@@ -317,14 +367,7 @@ class TylerShrink(SpectralCovariance):
             )
         except ValueError as exc:
             raise ValueError(f"TylerShrink.fit (rule='fixed-point'): {exc}") from exc
-        if not shape.converged:
-            warnings.warn(
-                "TylerShrink.fit: the fixed point did not converge to "
-                f"tol={self.tol!r} in max_iter={self.max_iter!r} iterations; "
-                "the last iterate is used.",
-                NotConvergedWarning,
-                stacklevel=4,
-            )
+        self._warn_unconverged(shape.converged)
         self.shrinkage_ = float(rho)
         self.n_iter_ = shape.n_iter
         return shape.eigenvectors, shape.eigenvalues, shape.null_value
@@ -333,3 +376,20 @@ class TylerShrink(SpectralCovariance):
         super()._store(spectrum, cleaned, dtype)
         if self._n_signal is not None:  # else the spectrum report's, as set
             self.n_signal_ = self._n_signal
+
+
+def _quadratic_forms(U, vecs, values, null) -> np.ndarray:
+    """``u_i' V^{-1} u_i`` for ``V = Q diag(values) Q' + null (I - Q Q')``.
+
+    Values are floored at 1e-12 of the largest (a zero cleaned eigenvalue
+    would make the weights infinite).
+    """
+    top = max(float(np.max(values, initial=0.0)), null or 0.0)
+    floor = 1e-12 * top if top > 0 else 1.0
+    coef = U @ vecs
+    coef2 = coef * coef
+    d = coef2 @ (1.0 / np.maximum(values, floor))
+    if null is not None:
+        rest = np.einsum("ij,ij->i", U, U) - coef2.sum(axis=1)
+        d += np.maximum(rest, 0.0) / max(null, floor)
+    return d
