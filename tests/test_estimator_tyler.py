@@ -142,8 +142,8 @@ def _mean_losses(design, distribution, **kw):
 @pytest.mark.parametrize("name", list(DESIGNS))
 def test_heavy_tails_shape_loss(name):
     # Multivariate t, 3 degrees of freedom, N = 100, T = 200, mean over 4
-    # seeds. Measured [computed]: tyler/linear 0.48 (1/3/10) and 0.51
-    # (Toeplitz), tyler/kernel 0.04 and 0.06.
+    # seeds. Measured [computed]: tyler/linear 0.48 (1/3/10) and 0.50
+    # (Toeplitz), tyler/kernel 0.03 and 0.04.
     kind, params = DESIGNS[name]
     design = make_design(kind, 100, **params)
     m = _mean_losses(design, "multivariate-t", df=3.0)
