@@ -28,6 +28,11 @@ KERNEL_FORMULAS = ("stabilized", "published")
 _SQRT5 = math.sqrt(5.0)
 # Row blocks of the numpy engine hold at most this many pairs (32 MB each).
 _NUMPY_BLOCK_PAIRS = 4_000_000
+# Up to this many pairs (about 32 eigenvalues) the numba engine also uses
+# the numpy sums: on a loaded machine waking numba's threads took 0.01-0.1 s
+# per call where the numpy sums take about 0.1-1 ms (measured for 5 to 100
+# eigenvalues, load average 11 on 2 cores).
+_NUMPY_SMALL_PAIRS = 1024
 
 
 # -- the kernel sums -------------------------------------------------------
@@ -79,7 +84,7 @@ def _density_hilbert(x, centres_desc, h, engine="numba", n_jobs=None):
     x = np.ascontiguousarray(x, dtype=np.float64)
     centres = np.ascontiguousarray(centres_desc, dtype=np.float64)
     bandwidths = h * centres
-    if engine == "numpy":
+    if engine == "numpy" or x.size * centres.size <= _NUMPY_SMALL_PAIRS:
         return _density_hilbert_numpy(x, centres, bandwidths)
     with _kernels.numba_threads(n_jobs):
         return _kernels.epanechnikov_density_hilbert(x, centres, bandwidths)
@@ -242,6 +247,8 @@ def kernel_shrink(
         near the singular ratio.
     engine : {"numba", "numpy"}, default="numba"
         The O(m^2) kernel sums: compiled (O(m) memory) or numpy row blocks.
+        Up to 1,024 pairs (about 32 eigenvalues) both use the numpy sums,
+        cheaper than starting the compiled kernel's threads.
     n_jobs : int, optional
         Numba threads for the sums (``None``: numba's current setting,
         ``-1``: all).
