@@ -3,20 +3,17 @@
 from __future__ import annotations
 
 import math
-import warnings
 
 import numpy as np
 
 from rmtclean._validation import Interval, Options
 from rmtclean.estimators._base import SpectralCovariance, common_params_doc
-from rmtclean.exceptions import WeakEstimateWarning
 from rmtclean.rules._combine import (
     _crossvalidated_linear_weight,
     blend_linear,
-    expand_zeros,
     plateau_phase,
 )
-from rmtclean.rules._kernel import KERNEL_FORMULAS, _kernel_shrink, closed_form_null
+from rmtclean.rules._kernel import KERNEL_FORMULAS, _kernel_rule
 from rmtclean.rules._linear import _linear_shrink
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import SampleSpectrum
@@ -26,28 +23,6 @@ __all__ = ["NEAR_SINGULAR_METHODS", "KernelShrink"]
 #: "kernel": the kernel values of ``formula``; "cross-validated": blended with
 #: Ledoit-Wolf (2004) linear shrinkage near N/n = 1, the weight by K-fold CV.
 NEAR_SINGULAR_METHODS = ("kernel", "cross-validated")
-
-
-def _positive_part(spectrum: SampleSpectrum):
-    """(positive eigenvalues, effective sample size, n_components).
-
-    Eigenvalues below ``1e-12 * max(N, dof) * lambda_max`` count as zeros
-    (collinear columns); then the rank replaces the degrees of freedom, so
-    that the zeros are treated as the null space of a rank-r sample.
-    """
-    vals = spectrum.eigenvalues
-    k = vals.size
-    n = float(spectrum.n_samples)
-    top = float(vals[0]) if k else 0.0
-    tol = 1e-12 * max(spectrum.n_features, n) * top
-    r = int(np.count_nonzero(vals > tol))
-    if r < min(spectrum.n_features, n):  # rank deficient beyond the sample size
-        n = float(r)
-    return np.ascontiguousarray(vals[:r], dtype=np.float64), n, k
-
-
-#: The zeros get the null value (also imported by StieltjesShrink).
-_expand = expand_zeros
 
 
 _DOC = r"""Analytical nonlinear shrinkage of the sample eigenvalues.
@@ -255,33 +230,21 @@ class KernelShrink(SpectralCovariance):
                 "rows); drop the weights or use near_singular='kernel'."
             )
         self.combination_weight_ = 0.0
-        vals, n, k = _positive_part(spectrum)
-        p = spectrum.n_features
-        if vals.size == 0:  # constant data: a zero covariance
-            self.bandwidth_, self.n_floored_ = math.nan, 0
-            return CleanedEigenvalues(np.zeros(k), 0.0 if k < p else None)
-        # The bandwidth follows the degrees of freedom (the sample size the
-        # kernel estimate rests on), also when the rank is smaller.
-        dof = float(spectrum.n_samples)
-        h = dof ** (-1.0 / 3.0) if self.bandwidth is None else float(self.bandwidth)
-        if not closed_form_null(n, p, h):
-            warnings.warn(
-                f"KernelShrink.fit: n_features = {p} exceeds the effective "
-                f"n_samples = {n:g} and sqrt(5) * bandwidth = {math.sqrt(5.0) * h:.3g} "
-                ">= 1 (fewer than 12 degrees of freedom with the default "
-                "bandwidth), where Ledoit & Wolf's (2020) closed form for the "
-                "null space does not hold: the null directions get OAS linear "
-                "shrinkage's value (Chen et al. 2010), a weak estimate.",
-                WeakEstimateWarning,
-                stacklevel=3,
-            )
-        out = _kernel_shrink(
-            vals, n, p, bandwidth=h, formula=self.formula, n_jobs=self.n_jobs
+        out = _kernel_rule(
+            spectrum.eigenvalues,
+            spectrum.n_samples,
+            spectrum.n_features,
+            bandwidth=self.bandwidth,
+            formula=self.formula,
+            n_jobs=self.n_jobs,
+            warn_as="KernelShrink.fit",
         )
+        if out.details is None:  # constant data: a zero covariance
+            self.bandwidth_, self.n_floored_ = math.nan, 0
+            return out
         self.bandwidth_ = out.details.bandwidth
         self.n_floored_ = out.details.n_floored
-        out = expand_zeros(out, k, p)
-        tau = plateau_phase(p / n)
+        tau = plateau_phase(out.details.ratio)
         if cross_validated and tau > 0.0:
             out = self._blend(spectrum, out, tau)
         return out

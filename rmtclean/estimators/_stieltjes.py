@@ -2,12 +2,9 @@
 
 from __future__ import annotations
 
-import numpy as np
-
 from rmtclean._validation import BOOLEAN, Interval, Options
 from rmtclean.estimators._base import SpectralCovariance, common_params_doc
-from rmtclean.estimators._kernel import _expand, _positive_part
-from rmtclean.rules._stieltjes import _stieltjes_shrink
+from rmtclean.rules._stieltjes import _stieltjes_rule
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import SampleSpectrum
 
@@ -157,21 +154,19 @@ class StieltjesShrink(SpectralCovariance):
         self.n_jobs = n_jobs
 
     def _clean(self, spectrum: SampleSpectrum) -> CleanedEigenvalues:
-        vals, n, k = _positive_part(spectrum)
-        p = spectrum.n_features
-        if vals.size == 0:  # constant data: a zero covariance
-            self.eta_, self.noise_variance_ = 0.0, None
-            return CleanedEigenvalues(np.zeros(k), 0.0 if k < p else None)
-        out = _stieltjes_shrink(
-            vals,
-            n,
-            p,
+        out = _stieltjes_rule(
+            spectrum.eigenvalues,
+            spectrum.n_samples,
+            spectrum.n_features,
             eta=None if self.eta is None else float(self.eta),
             regularize=self.regularize,
             preserve_trace=self.preserve_trace,
             width=self.width,
             n_jobs=self.n_jobs,
         )
+        if out.details is None:  # constant data: a zero covariance
+            self.eta_, self.noise_variance_ = 0.0, None
+            return out
         self.eta_ = out.details.eta
         self.noise_variance_ = out.details.noise_variance
-        return _expand(out, k, p)
+        return out

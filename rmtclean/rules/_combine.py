@@ -21,7 +21,7 @@ from rmtclean._validation import Interval, check_value, numerical_rank
 from rmtclean.rules._kernel import (
     HARD_EDGE_ZONE,
     KERNEL_FORMULAS,
-    _kernel_shrink,
+    _kernel_rule,
 )
 from rmtclean.rules._linear import _check_choice, _linear_shrink
 from rmtclean.rules._types import CleanedEigenvalues
@@ -57,16 +57,6 @@ def plateau_phase(ratio: float) -> float:
     return min(1.0, max(0.0, 2.0 - gap / (HARD_EDGE_ZONE / 2)))
 
 
-def expand_zeros(out: CleanedEigenvalues, k: int, p: int) -> CleanedEigenvalues:
-    """Give the ``k - r`` zero sample eigenvalues the null value."""
-    r = out.values.size
-    if r == k:
-        return out
-    values = np.concatenate([out.values, np.full(k - r, out.null_value)])
-    null = out.null_value if k < p else None
-    return CleanedEigenvalues(values, null, out.n_signal, out.details)
-
-
 def _kernel_values(vals, r, n, p, bandwidth, formula, n_jobs, where):
     """Kernel rule on all ``vals``, the first ``r`` positive (the rest zeros).
 
@@ -76,13 +66,9 @@ def _kernel_values(vals, r, n, p, bandwidth, formula, n_jobs, where):
     """
     if r == 0:
         raise ValueError(f"{where}: a training part has a zero sample covariance.")
-    pos = np.ascontiguousarray(vals[:r])
-    n_eff = float(r) if r < min(p, n) else n
-    # The bandwidth follows the degrees of freedom, also when the rank is
-    # smaller (as rmtclean.estimators.KernelShrink).
-    h = n ** (-1.0 / 3.0) if bandwidth is None else float(bandwidth)
-    out = _kernel_shrink(pos, n_eff, p, bandwidth=h, formula=formula, n_jobs=n_jobs)
-    return expand_zeros(out, vals.size, p)
+    return _kernel_rule(
+        vals, n, p, rank=r, bandwidth=bandwidth, formula=formula, n_jobs=n_jobs
+    )
 
 
 def _both_rules(Z, dof, p, bandwidth, formula, n_jobs, where):

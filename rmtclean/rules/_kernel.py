@@ -9,13 +9,20 @@ numba or numpy) and :func:`_kernel_shrink`, the public validated
 from __future__ import annotations
 
 import math
+import warnings
 
 import numpy as np
 
 from rmtclean import _kernels
 from rmtclean._validation import Interval, check_spectrum, check_value
+from rmtclean.exceptions import WeakEstimateWarning
 from rmtclean.rules._linear import _check_choice, _linear_shrink
-from rmtclean.rules._types import CleanedEigenvalues, KernelDetails
+from rmtclean.rules._types import (
+    CleanedEigenvalues,
+    KernelDetails,
+    expand_zeros,
+    positive_rank,
+)
 
 __all__ = ["KERNEL_ENGINES", "KERNEL_FORMULAS", "kernel_shrink"]
 
@@ -203,6 +210,62 @@ def _kernel_shrink(
         d, d0, details["n_floored"] = _hard_edge_floor(d, d0, p / n, h)
     null = d0 if vals.size < p else None
     return CleanedEigenvalues(d, null, None, KernelDetails(**details))
+
+
+def _kernel_rule(
+    eigenvalues: np.ndarray,
+    n_samples: float,
+    n_features: int,
+    *,
+    rank: int | None = None,
+    bandwidth: float | None = None,
+    formula: str = "stabilized",
+    engine: str = "numba",
+    n_jobs: int | None = None,
+    warn_as: str | None = None,
+) -> CleanedEigenvalues:
+    """The kernel rule on a full sample spectrum: the one core of its callers.
+
+    ``eigenvalues`` are the descending sample eigenvalues, zeros included.
+    The first ``rank`` are the positive part (default
+    :func:`~rmtclean.rules._types.positive_rank`); with a rank below
+    ``min(N, dof)`` the rank is the effective sample size, while the default
+    bandwidth ``dof^(-1/3)`` follows the degrees of freedom (the sample size
+    the kernel estimate rests on). Where Ledoit & Wolf's closed form for the
+    null space fails (``sqrt5 h >= 1`` with ``N > n``) the null directions
+    get OAS's value, with a :class:`~rmtclean.exceptions.WeakEstimateWarning`
+    naming ``warn_as`` when given. The zero eigenvalues get the null value;
+    an all-zero spectrum (constant data) gives zeros and ``details=None``.
+    """
+    k, p, dof = eigenvalues.size, int(n_features), float(n_samples)
+    if rank is None:
+        rank, n = positive_rank(eigenvalues, dof, p)
+    else:
+        n = float(rank) if rank < min(p, dof) else dof
+    if rank == 0:  # constant data: a zero covariance
+        return CleanedEigenvalues(np.zeros(k), 0.0 if k < p else None)
+    h = dof ** (-1.0 / 3.0) if bandwidth is None else float(bandwidth)
+    if warn_as is not None and not closed_form_null(n, p, h):
+        warnings.warn(
+            f"{warn_as}: n_features = {p} exceeds the effective "
+            f"n_samples = {n:g} and sqrt(5) * bandwidth = {_SQRT5 * h:.3g} "
+            ">= 1 (fewer than 12 degrees of freedom with the default "
+            "bandwidth), where Ledoit & Wolf's (2020) closed form for the "
+            "null space does not hold: the null directions get OAS linear "
+            "shrinkage's value (Chen et al. 2010), a weak estimate.",
+            WeakEstimateWarning,
+            stacklevel=4,  # the caller of the estimator's fit
+        )
+    out = _kernel_shrink(
+        np.ascontiguousarray(eigenvalues[:rank], dtype=np.float64),
+        n,
+        p,
+        bandwidth=h,
+        formula=formula,
+        engine=engine,
+        n_jobs=n_jobs,
+    )
+    return expand_zeros(out, k, p)
 
 
 _POSITIVE_FINITE = Interval(float, 0.0, math.inf, closed="neither")

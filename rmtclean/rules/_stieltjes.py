@@ -17,7 +17,12 @@ from rmtclean._validation import BOOLEAN, check_spectrum, check_value
 from rmtclean.laws import MarchenkoPastur
 from rmtclean.rules._kernel import _POSITIVE_FINITE
 from rmtclean.rules._linear import _check_choice
-from rmtclean.rules._types import CleanedEigenvalues, StieltjesDetails
+from rmtclean.rules._types import (
+    CleanedEigenvalues,
+    StieltjesDetails,
+    expand_zeros,
+    positive_rank,
+)
 
 __all__ = ["STIELTJES_ENGINES", "stieltjes_shrink"]
 
@@ -130,6 +135,25 @@ def _stieltjes_shrink(
         details["trace_factor"] = factor
     null = None if null is None else null * unit
     return CleanedEigenvalues(xi * unit, null, None, StieltjesDetails(**details))
+
+
+def _stieltjes_rule(
+    eigenvalues: np.ndarray, n_samples: float, n_features: int, **options
+) -> CleanedEigenvalues:
+    """The RIE on a full sample spectrum: the one core of its callers.
+
+    ``eigenvalues`` are the descending sample eigenvalues, zeros included;
+    the positive part and the effective sample size are
+    :func:`~rmtclean.rules._types.positive_rank`'s, the zeros get the null
+    value, and an all-zero spectrum (constant data) gives zeros and
+    ``details=None``. ``options`` are :func:`_stieltjes_shrink`'s.
+    """
+    k, p = eigenvalues.size, int(n_features)
+    r, n = positive_rank(eigenvalues, n_samples, p)
+    if r == 0:  # constant data: a zero covariance
+        return CleanedEigenvalues(np.zeros(k), 0.0 if k < p else None)
+    vals = np.ascontiguousarray(eigenvalues[:r], dtype=np.float64)
+    return expand_zeros(_stieltjes_shrink(vals, n, p, **options), k, p)
 
 
 def stieltjes_shrink(

@@ -19,6 +19,8 @@ __all__ = [
     "SpikeDetails",
     "SplitDetails",
     "StieltjesDetails",
+    "expand_zeros",
+    "positive_rank",
 ]
 
 
@@ -207,3 +209,30 @@ SpikeDetails, SplitDetails or None
     null_value: float | None = None
     n_signal: int | None = None
     details: RuleDetails | None = None
+
+
+def positive_rank(eigenvalues: np.ndarray, n_samples: float, n_features: int):
+    """``(r, n_eff)``: the positive eigenvalues' count and the sample size.
+
+    ``eigenvalues`` is a full descending sample spectrum. Values at or below
+    ``1e-12 max(N, dof)`` times the largest count as zeros (collinear
+    columns, repeated rows: rounding of an ``eigh`` is well above ``eps``
+    there); when ``r`` is below ``min(N, dof)`` the rank replaces the
+    degrees of freedom as the effective sample size, so that the zeros are
+    the null space of a rank-``r`` sample.
+    """
+    n = float(n_samples)
+    top = float(eigenvalues[0]) if eigenvalues.size else 0.0
+    tol = 1e-12 * max(n_features, n) * top
+    r = int(np.count_nonzero(eigenvalues > tol))
+    return r, (float(r) if r < min(n_features, n) else n)
+
+
+def expand_zeros(out: CleanedEigenvalues, k: int, p: int) -> CleanedEigenvalues:
+    """Give the ``k - r`` zero sample eigenvalues the null value."""
+    r = out.values.size
+    if r == k:
+        return out
+    values = np.concatenate([out.values, np.full(k - r, out.null_value)])
+    null = out.null_value if k < p else None
+    return CleanedEigenvalues(values, null, out.n_signal, out.details)
