@@ -124,17 +124,9 @@ _DOC = r"""Analytical nonlinear shrinkage of the sample eigenvalues.
     dependent rows stay together; the estimates assume independent rows.
     With ``standardize`` the folds use the rows scaled by the full-sample
     standard deviations; with ``assume_centered`` they are not demeaned.
-    Evidence (``benchmarks/near_singular_crossvalidated.py``; N = 150, 40
-    paired draws, mixture / AR(1) rho = 0.5 / 0.9 designs, Gaussian and t5
-    data, N/dof in [0.9, 1.1]): with ``n_folds=10`` the Frobenius loss is
-    never significantly above sklearn's LedoitWolf (0 of 30 cells with
-    t > 2), where the default is behind on AR(1) rho = 0.5 (by 0.0023 to
-    0.0103, t = 2 to 11). It is slightly worse than the default on the
-    mixture at N/dof = 0.90-0.95 (up to +0.015, t = 2.6, with one seed)
-    and on AR(1) rho = 0.9 (+0.002 to +0.013 in 5 to 9 of 10 cells, still
-    below LedoitWolf), and it does not close the minimum-variance-loss gap
-    to LedoitWolf on the AR(1) designs. Inside the zone a fit costs 4-9
-    times the full-sample cleaning (K = 5 and 10, measured under load).
+    It trades a few folds' cost for a weight the spectrum alone does not
+    estimate; the evidence (losses against sklearn's LedoitWolf, costs) is
+    in ``benchmarks/near_singular_crossvalidated.md``.
 
     References
     ----------

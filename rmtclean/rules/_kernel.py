@@ -359,18 +359,10 @@ def kernel_shrink(
     own code states ``n >= 12``). Below, the non-null values keep the formula
     above and the null directions get the value of OAS linear shrinkage,
     ``d0 = rho tr(S)/p`` with Chen et al.'s (2010) [2]_ eq. (23) intensity
-    ``rho`` (``details.null_method == "oas"``). The choice was measured
-    by held-out Gaussian likelihood on the dslabs tissue expression panel
-    (185 x 500; 16 random training draws of T = 4, 6, 8, 10, 12 rows, the
-    other rows held out): the null value decides the likelihood (``p - n``
-    of the ``p`` directions). Relative to LinearShrink (Ledoit-Wolf 2004)
-    the OAS null value scored +6% to +42%, the best of the candidates at
-    every T; Ledoit-Wolf's own null value -0.1% to -0.4%; the
-    quadratic-inverse null value ``1 / ((c - 1) mean(1/lambda))`` of Ledoit
-    & Wolf (2022), the ``h -> 0`` limit of the closed form, +33% at T = 4
-    but -14% at T = 10; the closed form with the bandwidth capped at 0.4
-    (``sqrt5 h = 0.89``) -31% at T = 10. Table and
-    command: ``benchmarks/small_wide_likelihood.md``.
+    ``rho`` (``details.null_method == "oas"``). It was chosen by held-out
+    Gaussian likelihood on the dslabs tissue expression panel, where the
+    null value decides the likelihood and OAS's value was the best
+    candidate at every training size (``benchmarks/small_wide_likelihood.md``).
 
     Near the singular ratio (``formula="stabilized"``). When ``|c - 1| <
     0.2`` the smallest sample eigenvalues approach a hard edge at 0; for the
@@ -381,19 +373,10 @@ def kernel_shrink(
     raised to at least ``tau`` times the median of ``d`` over the ``2k``
     eigenvalues just above them, ``tau = 1 - |c - 1|/0.2``: continuous in
     ``c``, and exactly the published formula for ``|c - 1| >= 0.2``
-    (``details.n_floored`` counts the values raised). Evidence (N = 150,
-    40 draws, Gaussian and t5 data, paired against sklearn's LedoitWolf on
-    the same draws): at ``c = 1`` the floor removes the breakdown of the
-    published formula in minimum-variance loss (mixture design: 154 -> 1.86,
-    LedoitWolf 1.88) and lowers the Frobenius loss by 1.7% (mixture); on the
-    mixture and AR(1) rho = 0.9 designs the Frobenius loss stays below
-    LedoitWolf's at every ratio in [0.8, 1.2] (or within Monte Carlo error
-    on a few t5 rows). It does *not* close the gap on AR(1) rho = 0.5, where
-    LedoitWolf is ahead by 0.6-2.5% (t = 2 to 11) in [0.9, 1.1] and also at
-    ``c = 1.2``, where the formulas coincide; a combination with linear
-    shrinkage would need a weight that the spectrum alone does not estimate.
-    Numbers, rejected candidates and the command:
-    ``benchmarks/near_singular_ratio.md``.
+    (``details.n_floored`` counts the values raised). The floor removes the
+    published formula's breakdown in minimum-variance loss at ``c = 1``;
+    it does not close the gap to linear shrinkage on every design (numbers,
+    rejected candidates and the command: ``benchmarks/near_singular_ratio.md``).
 
     References
     ----------

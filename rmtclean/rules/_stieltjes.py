@@ -260,49 +260,9 @@ def stieltjes_shrink(
     ``eta lambda_i`` unchanged (rmtclean's choice, measured in
     ``benchmarks/stieltjes_near_square.py``).
 
-    Alternatives measured and rejected (seeds 7-9): removing the outliers'
-    terms from ``g`` at the eigenvalues a Tracy-Widom edge test declares
-    signal fails when a whole group stands above the white-noise edge
-    (Ledoit-Wolf 1/3/10 mixture, ``N = 200``, ``T = 400``: Frobenius loss
-    14.5 against 5.9, no better than the sample covariance); a
-    leave-one-out ``g`` (self-term dropped) at those eigenvalues was worse
-    than the relative width on the block-factor (5.29 against 4.73) and
-    mixture (``T = 100``: 14.1 against 11.9) designs and within 2% of it on
-    the spiked ones; dropping the self-term everywhere was worse still.
-
-    Measured for rmtclean (:class:`rmtclean.estimators.StieltjesShrink`,
-    defaults otherwise; mean Frobenius loss over seeds 7-11, each seed
-    drawing the design (when random) and then the sample from one
-    ``np.random.default_rng(seed)``; PRIAL in % against the sample
-    covariance and :func:`rmtclean.metrics.oracle_covariance`):
-
-    ========================  ============  ============  ======  =====  =====
-    design (N, T)             uniform       relative      kernel  LW     S
-    ========================  ============  ============  ======  =====  =====
-    block-factor (300, 500)   297 (-14502)  4.26 (36.3)   4.07    5.14   4.99
-    mixture (200, 400)        6.01 (97.3)   5.95 (98.0)   5.90    7.31   14.69
-    mixture (200, 100)        13.09 (96.2)  11.91 (98.7)  11.79   11.79  58.84
-    spiked (200, 400)         2.41 (-268)   0.319 (90.5)  0.334   0.726  0.848
-    spiked (300, 150)         4.93 (-94)    0.805 (94.5)  0.804   1.96   2.88
-    ========================  ============  ============  ======  =====  =====
-
-    (block-factor: ``make_design("block-factor", 300, n_blocks=10,
-    market_variance=1.0, block_variance=0.6)``; mixture: Ledoit & Wolf's
-    1/3/10 design, re-measured after the near-square fix: the Stieltjes
-    columns unchanged to the digits shown; kernel:
-    :class:`~rmtclean.estimators.KernelShrink`;
-    LW: scikit-learn's LedoitWolf; S: sample covariance; spiked: spikes
-    40, 10, 5 on unit noise.) On the block-factor sample of seed 7 the
-    top eigenvalue (population 329.7, sample 340.6) is cleaned to 334.7
-    (uniform: 30.0, below several sector eigenvalues, e.g. 31.9); sector
-    eigenvalues closer to each other than ``eta lambda_i`` can still swap
-    by a few percent. On pure
-    noise (``N = 500``, ``T = 1000``, 6 seeds) the bottom-decile mean is
-    0.955 before the regularisation (uniform: 0.755) and 0.999 after
-    (uniform: 1.003); for a single spike the cleaned value follows the BBP
-    limit ``ell(lambda) c^2 + 1 - c^2`` of its sample eigenvalue within
-    0.5% (uniform: 2.5% low at ``ell = 5``, 70% low at ``ell = 60``;
-    ``N = 200``, ``T = 400``).
+    The evidence for this choice (Frobenius losses and PRIALs on
+    block-factor, mixture and spiked designs, and the alternatives rejected)
+    is in ``benchmarks/stieltjes_near_square.md``.
 
     Regularisation [2]_: ``sigma^2 = lambda_min / (1 - sqrt q)^2`` (the
     Marchenko-Pastur lower edge put on the smallest nonzero eigenvalue),

@@ -384,27 +384,9 @@ def detect_signal(
     Johnstone's ``(n - 1, N)`` constants are conservative at small sizes and
     the half-integer ones sit closer to ``alpha``. With the variance
     estimated and the adjustment above, as in practice, the order flips.
-    False-alarm rate P(n_signal >= 1) on pure Gaussian noise at
-    ``alpha = 0.05``, 4000 replicates each (se 0.0034), measured by
-    ``python benchmarks/edge_false_alarm.py --reps 4000 --seed 0``:
-
-    ============  ==========  ============  =========  ===========
-    (T, N)        johnstone   half-integer  johnstone  half-integer
-                  estimated   estimated     known s2   known s2
-    ============  ==========  ============  =========  ===========
-    (50, 10)      0.0508      0.0592        0.0405     0.0450
-    (100, 40)     0.0465      0.0490        0.0495     0.0532
-    (200, 100)    0.0475      0.0493        0.0462     0.0473
-    (500, 250)    0.0435      0.0442        0.0415     0.0420
-    (200, 400)    0.0522      0.0510        0.0520     0.0508
-    ============  ==========  ============  =========  ===========
-
-    Without the adjustment the rate with the estimated variance is 0.019
-    (johnstone) and 0.024 (half-integer) at (50, 10). The default is
-    ``"johnstone"``: its largest gap to ``alpha`` with the estimated
-    variance is 0.0065, against 0.0092; it also holds the level of the
-    later sequential steps better (P(n_signal > 2) with two strong planted
-    spikes: 0.0455-0.0545 against 0.0465-0.0648).
+    The default is ``"johnstone"``: with the variance estimated its
+    false-alarm rate on pure noise stays closest to ``alpha`` (table and
+    command: ``benchmarks/edge_false_alarm.md``).
 
     References
     ----------
