@@ -13,13 +13,13 @@ from __future__ import annotations
 import numpy as np
 
 from rmtclean.spectrum._sample import (
-    DENSE_LIMIT,
     SampleSpectrum,
     column_scale,
     complete_basis,
     dense_leading,
     gram_leading,
     gram_pairs,
+    sample_layout,
 )
 
 __all__ = ["is_dask_array", "dask_sample_spectrum"]
@@ -126,12 +126,9 @@ def dask_sample_spectrum(
                 f"sample_weight of {owner} must be finite and non-negative."
             )
         total, n_positive = float(total), int(n_positive)
-    dof = total if assume_centered else total - 1.0
-    if dof <= 0:
-        raise ValueError(
-            "The sample covariance needs more than one effective sample: "
-            f"the weights sum to {total!r}, leaving {dof!r} degrees of freedom."
-        )
+    dof, rank, route = sample_layout(
+        n_rows, n_features, total, n_positive, assume_centered, route
+    )
     if assume_centered:
         location = np.zeros(n_features)
     else:
@@ -141,21 +138,14 @@ def dask_sample_spectrum(
             location = np.asarray((w @ X).compute()) / total
     Xc = X - location
     Z = Xc * (np.sqrt(1.0 / dof) if w is None else da.sqrt(w / dof)[:, None])
-    if route == "auto":
-        route = "gram" if (n_features > n_rows or n_features > DENSE_LIMIT) else "dense"
     if route == "dense":
         scatter, ok = _blockwise_scatter(X, w, location, dof)
-    elif route == "gram":
+    else:
         finite = da.isfinite(X).all()
         scatter, ok = dask.compute(Z @ Z.T, finite)
-    else:
-        raise ValueError(
-            f"route must be one of 'auto', 'dense' or 'gram'. Got {route!r} instead."
-        )
     if not ok:
         raise ValueError(f"X of {owner} contains NaN or infinity.")
     scatter = np.asarray(scatter)
-    rank = max(1, min(n_features, n_positive - (0 if assume_centered else 1)))
     scale = None
     leading = None
     if route == "dense":

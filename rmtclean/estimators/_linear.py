@@ -30,6 +30,7 @@ from rmtclean.rules._linear import (
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import DENSE_LIMIT, CleanedSpectrum, SampleSpectrum
 from rmtclean.spectrum._report import detect_noise_and_signal
+from rmtclean.spectrum._sample import sample_layout
 
 __all__ = ["LinearShrink"]
 
@@ -257,10 +258,9 @@ class LinearShrink(SpectralCovariance):
     def _direct_route(self, shape) -> bool:
         """Whether the base would take the dense route and store covariance_."""
         n_rows, n_features = shape
-        route = self.route
-        if route == "auto":
-            big = n_features > n_rows or n_features > DENSE_LIMIT
-            route = "gram" if big else "dense"
+        _, _, route = sample_layout(
+            n_rows, n_features, n_rows, n_rows, self.assume_centered, self.route
+        )
         store = self.store_covariance
         if store == "auto":
             store = n_features <= DENSE_LIMIT
@@ -294,7 +294,9 @@ class LinearShrink(SpectralCovariance):
         else:
             location = X64.mean(axis=0)
             Xc = X64 - location
-        dof = float(n_rows if self.assume_centered else n_rows - 1)
+        dof, _, _ = sample_layout(
+            n_rows, X64.shape[1], float(n_rows), n_rows, self.assume_centered, "dense"
+        )
         if dof < X64.shape[1]:  # rank deficient by design: spectral route
             return False
         n = self._divisor(dof)

@@ -203,29 +203,15 @@ class SampleSpectrum:
             total = float(w.sum())
             probs = w / total
             n_positive = int(np.count_nonzero(w))
-        dof = total if assume_centered else total - 1.0
-        if dof <= 0:
-            raise ValueError(
-                "The sample covariance needs more than one effective sample: "
-                f"the weights sum to {total!r}, leaving {dof!r} degrees of freedom."
-            )
+        dof, rank, route = sample_layout(
+            n_rows, n_features, total, n_positive, assume_centered, route
+        )
         if assume_centered:
             location = np.zeros(n_features)
             Xc = X  # the caller's array: never written in place
         else:
             location = X.mean(axis=0) if probs is None else probs @ X
             Xc = X - location
-        rank = min(n_features, n_positive - (0 if assume_centered else 1))
-        rank = max(rank, 1)
-        if route == "auto":
-            route = (
-                "gram" if (n_features > n_rows or n_features > DENSE_LIMIT) else "dense"
-            )
-        if route not in ("dense", "gram"):
-            raise ValueError(
-                "route must be one of 'auto', 'dense' or 'gram'. "
-                f"Got {route!r} instead."
-            )
         if eigenvectors not in ("all", "leading", "randomized"):
             raise ValueError(
                 "eigenvectors must be 'all', 'leading' or 'randomized'. "
@@ -289,6 +275,42 @@ class SampleSpectrum:
             weights=None if sample_weight is None else np.asarray(sample_weight, float),
             leading=leading,
         )
+
+
+def sample_layout(
+    n_rows: int,
+    n_features: int,
+    total: float,
+    n_positive: int,
+    assume_centered: bool,
+    route: str,
+) -> tuple[float, int, str]:
+    """``(dof, rank, route)`` of a (weighted) sample: the one rule of every path.
+
+    ``total`` is the sum of the frequency weights (``n_rows`` without
+    weights) and ``n_positive`` the number of rows with a positive weight.
+    The degrees of freedom are ``total - 1`` after demeaning (``total`` with
+    ``assume_centered``); the rank of the sample covariance is at most
+    ``min(N, n_positive - 1)`` (at least 1); ``route="auto"`` takes
+    ``"gram"`` when N exceeds the rows or :data:`DENSE_LIMIT`. The in-memory
+    (:meth:`SampleSpectrum.from_data`), dask
+    (:func:`rmtclean.distributed.dask_sample_spectrum`) and LinearShrink's
+    direct paths call it.
+    """
+    dof = total if assume_centered else total - 1.0
+    if dof <= 0:
+        raise ValueError(
+            "The sample covariance needs more than one effective sample: "
+            f"the weights sum to {total!r}, leaving {dof!r} degrees of freedom."
+        )
+    rank = max(1, min(n_features, n_positive - (0 if assume_centered else 1)))
+    if route == "auto":
+        route = "gram" if (n_features > n_rows or n_features > DENSE_LIMIT) else "dense"
+    if route not in ("dense", "gram"):
+        raise ValueError(
+            f"route must be one of 'auto', 'dense' or 'gram'. Got {route!r} instead."
+        )
+    return dof, rank, route
 
 
 def n_moved(values: np.ndarray, bulk: float) -> int:
