@@ -12,9 +12,7 @@ from rmtclean.estimators._base import SpectralCovariance, common_params_doc
 from rmtclean.rules._split import (
     NULL_SPACE_METHODS,
     _generator,
-    _pool_ties,
-    _prepare,
-    _split_diagonal,
+    _split_rule,
     _train_size_rows,
 )
 from rmtclean.rules._types import CleanedEigenvalues
@@ -176,17 +174,10 @@ class SplitShrink(SpectralCovariance):
             self.assume_centered, owner,
         )  # fmt: skip
         rng = _generator(self.random_state) if self.shuffle else None
-        splits, details = _prepare(
-            X, w, m, self.n_splits, self.shuffle, rng, self.assume_centered,
-            self.null_space,
+        out = _split_rule(
+            X, w, spectrum.eigenvectors, spectrum.eigenvalues, m, self.n_splits,
+            self.shuffle, rng, self.assume_centered, self.null_space,
         )  # fmt: skip
-        values, null_value = _split_diagonal(
-            X, w, spectrum.eigenvectors, splits, self.assume_centered,
-            self.null_space,
-        )  # fmt: skip
-        values, null_value = _pool_ties(
-            values, null_value, spectrum.eigenvalues, spectrum.n_features
-        )
-        self.train_size_ = int(details.train_size)
-        self.train_size_criterion_ = details.train_size_criterion
-        return CleanedEigenvalues(values, null_value, None, details)
+        self.train_size_ = int(out.details.train_size)
+        self.train_size_criterion_ = out.details.train_size_criterion
+        return out

@@ -586,6 +586,21 @@ def split_shrink(
         eigenvectors, sample = spectrum.eigenvectors, spectrum.eigenvalues
     else:
         eigenvectors = _check_eigenvectors(eigenvectors, X.shape[1], owner)
+    return _split_rule(
+        X, w, eigenvectors, sample, m, n_splits, shuffle, rng, assume_centered,
+        null_space,
+    )  # fmt: skip
+
+
+def _split_rule(
+    X, w, eigenvectors, sample, m, n_splits, shuffle, rng, assume_centered, null_space
+) -> CleanedEigenvalues:
+    """The split rule on validated rows: the one core of its callers.
+
+    Draws the splits, averages ``diag(P1' S2 P1)`` over them along
+    ``eigenvectors`` and, given the full ``sample`` eigenvalues, pools the
+    values of tied sample eigenvalues.
+    """
     splits, details = _prepare(
         X, w, m, n_splits, shuffle, rng, assume_centered, null_space
     )
