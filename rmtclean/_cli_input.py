@@ -72,7 +72,9 @@ def load_returns(args):
     extra = 1 if args.from_prices else 0
     frame = numeric_matrix(frame, min_rows=MIN_ROWS + extra, source=source)
     constant = [str(c) for c in frame.columns[frame.nunique(dropna=True) <= 1]]
-    if constant and not args.standardize:
+    # All constant: the cleaners refuse it with their own message; with
+    # --standardize they name the first constant column.
+    if constant and len(constant) < frame.shape[1] and not args.standardize:
         shown = ", ".join(repr(c) for c in constant[:3])
         warn(
             args,
