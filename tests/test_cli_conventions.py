@@ -282,7 +282,7 @@ def test_analyze_with_missing_em(holes_csv, capsys):
     path, holes = holes_csv
     code, stdout, err = _run(["analyze", path, "--missing", "em", "--json"], capsys)
     assert code == 0, err
-    got = np.asarray(json.loads(stdout)["report"]["eigenvalues"])
+    got = np.asarray(json.loads(stdout)["eigenvalues"])
     # The EM estimate's eigenvalues, by numpy (the report keeps min(N, dof)).
     ref = np.linalg.eigvalsh(em_covariance(holes.to_numpy()).covariance)[::-1]
     np.testing.assert_allclose(got, ref[: got.size], rtol=1e-10)
@@ -317,12 +317,13 @@ def test_transposed_file_gets_a_hint(tmp_path, capsys):
     frame.T.to_csv(path)  # dates as columns
     code, _, err = _run(["analyze", path], capsys)
     assert code == 0, err
-    hints = _warnings(err, "analyze")
+    hints = [w for w in _warnings(err, "analyze") if "column names" in w]
     assert len(hints) == 1 and "60 of the 60 column names" in hints[0]
     assert "transpose" in hints[0]
     normal = tmp_path / "long.csv"
     frame.to_csv(normal)
-    assert _warnings(_run(["analyze", normal], capsys)[2], "analyze") == []
+    err = _run(["analyze", normal], capsys)[2]
+    assert not any("column names" in w for w in _warnings(err, "analyze"))
 
 
 # -- help pages ---------------------------------------------------------------
