@@ -33,7 +33,7 @@ from rmtclean._validation import (
     Interval,
     Options,
     check_sample_weight,
-    check_spectrum,
+    check_sizes,
     check_value,
 )
 from rmtclean.rules._types import CleanedEigenvalues, LinearDetails
@@ -345,10 +345,15 @@ def linear_shrink(
     (array([2.0625, 1.0625, 0.8125]), 0.5625)
     """
     owner = "linear_shrink"
-    vals, n_samples, n_features = check_spectrum(
-        eigenvalues, n_samples, n_features, owner, allow_zero=True, descending=False
-    )
+    # The values in any order, zeros allowed: check_eigenvalues' messages.
+    vals = check_eigenvalues(eigenvalues, owner)
     intensity = _check_intensity(intensity, "intensity", owner)
+    n_samples, n_features = check_sizes(n_samples, n_features, owner)
+    if n_features < vals.size:
+        raise ValueError(
+            f"The 'n_features' parameter of {owner} must be an int of at least "
+            f"len(eigenvalues) = {vals.size}. Got {n_features!r} instead."
+        )
     sq = w = None
     if intensity == "ledoit-wolf":
         if squared_norms is None:
