@@ -89,7 +89,11 @@ default="kernel"
         a row weight ``d_i``).
     max_iter : int, default=200
         Most fixed-point iterations (``max_iter=1`` with a cleaner rule:
-        the cleaner on the spatial signs, without reweighting).
+        the cleaner on the spatial signs, without reweighting). With a
+        cleaner rule, a fixed point that does not converge within
+        ``max_iter`` falls back to that first pass, with a
+        ``NotConvergedWarning`` (the reweighting can concentrate on a few
+        rows when N exceeds T).
 %(common)s
     Attributes
     ----------
@@ -293,7 +297,17 @@ class TylerShrink(SpectralCovariance):
             route=spectrum.route,
             keep_samples=keep_samples,
         )
-        return replace(sign_spectrum, n_samples=spectrum.n_samples)
+        # Signs of centred rows span the rows' own space (rank T - 1 after
+        # demeaning): the sign spectrum's extra component is a rounding-level
+        # zero, which would otherwise reach the rule as a "nonzero" value.
+        k = min(sign_spectrum.n_components, spectrum.n_components)
+        vecs = sign_spectrum.eigenvectors
+        return replace(
+            sign_spectrum,
+            n_samples=spectrum.n_samples,
+            eigenvalues=sign_spectrum.eigenvalues[:k],
+            eigenvectors=None if vecs is None else vecs[:, :k],
+        )
 
     def _signs_cleaned(self, spectrum, signs):
         """The rule's fixed point on Tyler-weighted rows, from the spatial signs.
@@ -309,9 +323,12 @@ class TylerShrink(SpectralCovariance):
         rows = signs
         converged = False
         n_iter = 0
+        first = None
         while n_iter < self.max_iter:
             n_iter += 1
             vecs, values, null = self._clean_rows(inner, spectrum, rows)
+            if first is None:
+                first = (vecs, values, null, self._n_signal)
             d_new = _quadratic_forms(signs, vecs, values, null)
             change = float(np.max(np.abs(d_new[moving] / d[moving] - 1.0), initial=0.0))
             d = d_new
@@ -320,9 +337,15 @@ class TylerShrink(SpectralCovariance):
                 break
             factor = np.sqrt(np.divide(p, d, out=np.zeros_like(d), where=moving))
             rows = signs * factor[:, None]
-        self._warn_unconverged(converged)
         self.n_iter_ = n_iter
         self.rule_estimator_ = inner
+        if not converged:
+            # Without convergence the reweighting can pile all weight on a few
+            # rows (seen on wide panels, N > T, where Tyler's estimator need
+            # not exist): the first pass, the rule on the spatial signs, is
+            # the well-posed estimate then.
+            self._warn_unconverged(False, fallback="the spatial-sign pass")
+            vecs, values, null, self._n_signal = first
         return vecs, values, null
 
     def _clean_rows(self, inner, spectrum, rows):
@@ -348,12 +371,14 @@ class TylerShrink(SpectralCovariance):
             null = None if null is None else null * (p / total)
         return sign_spectrum.eigenvectors, values, null
 
-    def _warn_unconverged(self, converged: bool) -> None:
+    def _warn_unconverged(
+        self, converged: bool, fallback: str = "the last iterate"
+    ) -> None:
         if not converged:
             warnings.warn(
                 "TylerShrink.fit: the fixed point did not converge to "
                 f"tol={self.tol!r} in max_iter={self.max_iter!r} iterations; "
-                "the last iterate is used.",
+                f"{fallback} is used.",
                 NotConvergedWarning,
                 stacklevel=5,
             )
