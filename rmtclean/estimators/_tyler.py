@@ -92,8 +92,9 @@ default="kernel"
         the cleaner on the spatial signs, without reweighting). With a
         cleaner rule, a fixed point that does not converge within
         ``max_iter`` falls back to that first pass, with a
-        ``NotConvergedWarning`` (the reweighting can concentrate on a few
-        rows when N exceeds T).
+        ``NotConvergedWarning``. When N is at least the degrees of freedom,
+        Tyler's fixed point need not exist (Tyler 1987 assumes n > p) and
+        the first pass is the estimate, without iterating.
 %(common)s
     Attributes
     ----------
@@ -324,7 +325,11 @@ class TylerShrink(SpectralCovariance):
         converged = False
         n_iter = 0
         first = None
-        while n_iter < self.max_iter:
+        # Tyler's (1987) fixed point exists only with more observations than
+        # dimensions: on wide panels the spatial-sign pass is the estimate.
+        passes = self.max_iter if spectrum.n_samples > p else 1
+        converged = passes == 1 and self.max_iter > 1
+        while n_iter < passes:
             n_iter += 1
             vecs, values, null = self._clean_rows(inner, spectrum, rows)
             if first is None:
