@@ -322,11 +322,11 @@ class TylerShrink(SpectralCovariance):
         moving = np.any(signs != 0, axis=1)
         d = np.full(signs.shape[0], float(p))
         rows = signs
-        converged = False
         n_iter = 0
         first = None
         # Tyler's (1987) fixed point exists only with more observations than
-        # dimensions: on wide panels the spatial-sign pass is the estimate.
+        # dimensions: on wide panels the spatial-sign pass is the estimate
+        # (not a failure to converge, so no warning unless max_iter=1 asked).
         passes = self.max_iter if spectrum.n_samples > p else 1
         converged = passes == 1 and self.max_iter > 1
         while n_iter < passes:
