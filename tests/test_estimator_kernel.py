@@ -109,3 +109,20 @@ def test_parameter_validation(rng):
         StieltjesShrink(eta=0.0).fit(X)
     with pytest.raises(InvalidParameterError, match="'n_jobs' parameter"):
         StieltjesShrink(n_jobs=0).fit(X)
+
+
+def test_fractional_dof_at_full_rank(rng):
+    # Frequency weights (1, 0.7, 0.7) on three rows give sum(w) - 1 = 1.4
+    # degrees of freedom for two columns of full rank: p > n with no null
+    # direction, so OAS's null value (Chen et al. 2010, eq. 23) is not needed;
+    # the fit used to fail asking for it.
+    from rmtclean.estimators import TylerShrink
+    from rmtclean.exceptions import WeakEstimateWarning
+
+    X = rng.standard_normal((3, 2))
+    w = np.array([1.0, 0.7, 0.7])
+    for klass in (KernelShrink, TylerShrink):
+        with pytest.warns(WeakEstimateWarning):
+            est = klass().fit(X, sample_weight=w)
+        assert est.degrees_of_freedom_ == pytest.approx(1.4)
+        assert np.all(np.isfinite(est.eigenvalues_)) and est.eigenvalues_.min() > 0

@@ -145,7 +145,9 @@ def _published(vals, n, p, h, engine, n_jobs):
         h0 = _hilbert_at_zero(vals, h) if p > n else None
         return _shrink_from_estimates(vals, f, H, n, p, h0)
     d, _ = _shrink_from_estimates(vals, f, H, n, p, math.inf)
-    return d, _oas_null_value(vals, n, p)
+    # Fractional degrees of freedom (weighted rows) can leave p > n at full
+    # rank: then there are no null directions to value.
+    return d, _oas_null_value(vals, n, p) if vals.size < p else None
 
 
 #: Half-width in N/T of the zone where the hard-edge floor is phased in.
