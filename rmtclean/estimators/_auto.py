@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import numbers
 import warnings
+from collections.abc import Callable
+from typing import ClassVar
 
 import numpy as np
 from joblib import Parallel, delayed
@@ -21,7 +23,11 @@ from rmtclean._validation import (
     check_sample_weight,
 )
 from rmtclean.distributed import is_dask_array
-from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.estimators._base import (
+    SpectralCovariance,
+    common_params_doc,
+    estimator_dataclass,
+)
 from rmtclean.estimators._folds import (
     FoldResult,
     common_names,
@@ -232,12 +238,13 @@ _SPLITTER = _Special(
 )
 
 
+@estimator_dataclass
 class AutoShrink(SpectralCovariance):
     __doc__ = _DOC.replace(
         "%(common)s", common_params_doc(exclude=("missing",)).rstrip("\n") + "\n"
     )
 
-    _parameter_specs: dict = {
+    _parameter_specs: ClassVar[dict] = {
         "candidates": [None, _CANDIDATES],
         "cv": [Interval(int, 2, None), _SPLITTER],
         "scoring": [Options(SCORINGS), CALLABLE],
@@ -248,38 +255,12 @@ class AutoShrink(SpectralCovariance):
     # The folds need the data rows: no dask arrays.
     _needs_samples = True
 
-    def __init__(
-        self,
-        *,
-        candidates=None,
-        cv=5,
-        scoring="loglik",
-        combine="select",
-        n_jobs=None,
-        random_state=None,
-        store_precision=True,
-        assume_centered=False,
-        standardize=False,
-        route="auto",
-        store_covariance="auto",
-        half_life=None,
-        vol_half_life=None,
-    ):
-        super().__init__(
-            store_precision=store_precision,
-            assume_centered=assume_centered,
-            standardize=standardize,
-            route=route,
-            store_covariance=store_covariance,
-            half_life=half_life,
-            vol_half_life=vol_half_life,
-        )
-        self.candidates = candidates
-        self.cv = cv
-        self.scoring = scoring
-        self.combine = combine
-        self.n_jobs = n_jobs
-        self.random_state = random_state
+    candidates: list | tuple | None = None
+    cv: int | object = 5
+    scoring: str | Callable = "loglik"
+    combine: str = "select"
+    n_jobs: int | None = None
+    random_state: int | np.random.Generator | np.random.RandomState | None = None
 
     # -- candidates -------------------------------------------------------
     def _candidate_seed(self):

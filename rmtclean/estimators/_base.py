@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import re
 import warnings
-from dataclasses import replace
+from dataclasses import dataclass, replace
+from typing import ClassVar
 
 import numpy as np
 from sklearn.base import OneToOneFeatureMixin, TransformerMixin
@@ -26,7 +27,12 @@ from rmtclean.spectrum import DENSE_LIMIT, CleanedSpectrum, SampleSpectrum
 from rmtclean.volatility import ewma_volatility
 from rmtclean.weights import exponential_weights, kish_weights
 
-__all__ = ["SpectralCovariance"]
+__all__ = [
+    "SpectralCovariance",
+    "TakesMissing",
+    "estimator_dataclass",
+    "mixin_dataclass",
+]
 
 _COMMON_DOC = """
     store_precision : bool, default=True
@@ -108,11 +114,26 @@ def _report_count(spectrum: SampleSpectrum) -> int | None:
     return None if found is None else found.n_signal
 
 
+#: The estimators are dataclasses: each declares its parameters once, as
+#: annotated class attributes with their defaults, and the generated
+#: keyword-only ``__init__`` only stores them (its signature is what
+#: scikit-learn's ``get_params`` reads). Subclasses inherit the base's fields.
+#: ``eq=False`` and ``repr=False`` keep scikit-learn's identity comparison,
+#: hashing and repr.
+estimator_dataclass = dataclass(kw_only=True, eq=False, repr=False)
+
+#: A mixin's fields join the ``__init__`` of the estimator dataclass that
+#: lists it among its bases; the mixin itself generates no ``__init__``.
+mixin_dataclass = dataclass(kw_only=True, init=False, eq=False, repr=False)
+
+
+@estimator_dataclass
 class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovariance):
     """Base class: sample spectrum -> rule -> cleaned spectrum.
 
-    Subclasses declare ``_parameter_specs`` for their own parameters, store
-    keyword-only parameters in ``__init__`` and implement
+    Subclasses are declared with ``@estimator_dataclass``, list their own
+    parameters as annotated fields with defaults (after the base's),
+    declare ``_parameter_specs`` for them and implement
     ``_clean(spectrum) -> CleanedEigenvalues`` (or return a
     :class:`~rmtclean.spectrum.CleanedSpectrum` for rules that are not
     rotation invariant). Rules that need the data rows set
@@ -144,38 +165,26 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
     feature_names_in_ : ndarray of shape (n_features_in_,)
     """
 
-    _parameter_specs: dict = {
+    _parameter_specs: ClassVar[dict] = {
         "store_precision": [BOOLEAN],
         "assume_centered": [BOOLEAN],
         "standardize": [BOOLEAN],
         "route": [Options({"auto", "dense", "gram"})],
         "store_covariance": [Options({"auto"}), BOOLEAN],
         "half_life": [None, Interval(float, 0.0, None, closed="neither")],
-        "missing": [Options({"error", "pairwise", "em"})],
         "vol_half_life": [None, Interval(float, 0.0, None, closed="neither")],
     }
     _needs_samples = False
 
-    def __init__(
-        self,
-        *,
-        store_precision=True,
-        assume_centered=False,
-        standardize=False,
-        route="auto",
-        store_covariance="auto",
-        half_life=None,
-        missing="error",
-        vol_half_life=None,
-    ):
-        self.store_precision = store_precision
-        self.assume_centered = assume_centered
-        self.standardize = standardize
-        self.route = route
-        self.store_covariance = store_covariance
-        self.half_life = half_life
-        self.missing = missing
-        self.vol_half_life = vol_half_life
+    # The parameters every estimator takes, with their defaults; the
+    # docstrings describe them through ``common_params_doc``.
+    store_precision: bool = True
+    assume_centered: bool = False
+    standardize: bool = False
+    route: str = "auto"
+    store_covariance: str | bool = "auto"
+    half_life: float | None = None
+    vol_half_life: float | None = None
 
     # -- the seam ---------------------------------------------------------
     def _clean(self, spectrum: SampleSpectrum):  # pragma: no cover - abstract
@@ -619,6 +628,20 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         tags = super().__sklearn_tags__()
         tags.transformer_tags.preserves_dtype = ["float64", "float32"]
         return tags
+
+
+@mixin_dataclass
+class TakesMissing:
+    """Mixin of a :class:`SpectralCovariance` that estimates from data with
+    NaN entries: adds the ``missing`` parameter (described by
+    ``common_params_doc``). Cleaners that need complete data rows leave it
+    out."""
+
+    _parameter_specs: ClassVar[dict] = {
+        "missing": [Options({"error", "pairwise", "em"})],
+    }
+
+    missing: str = "error"
 
 
 class _DeferredPrecision:

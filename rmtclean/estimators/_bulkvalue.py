@@ -2,7 +2,10 @@
 
 from __future__ import annotations
 
+from typing import ClassVar
+
 from rmtclean._validation import Options
+from rmtclean.estimators._base import mixin_dataclass
 
 __all__ = ["OneBulkValue"]
 
@@ -38,15 +41,18 @@ _ATTRIBUTE_DOC = """    eigenvectors_ : ndarray of shape (n_features, n_vectors)
 """
 
 
+@mixin_dataclass
 class OneBulkValue:
     """Mixin of a :class:`SpectralCovariance` whose rule gives every bulk
     eigenvalue (and the null space) one value and reads eigenvalues only: it
     adds the ``eigen_solver`` parameter and fills ``%(eigen_solver)s`` and
     ``%(eigenvectors)s`` in the class docstring."""
 
-    _eigen_solver_spec: dict = {
+    _parameter_specs: ClassVar[dict] = {
         "eigen_solver": [Options({"partial", "full", "randomized"})]
     }
+
+    eigen_solver: str = "partial"
 
     def _eigenvectors_needed(self) -> str:
         return {"partial": "leading", "full": "all"}.get(

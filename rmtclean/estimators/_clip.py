@@ -2,8 +2,15 @@
 
 from __future__ import annotations
 
+from typing import ClassVar
+
 from rmtclean._validation import Interval, Options
-from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.estimators._base import (
+    SpectralCovariance,
+    TakesMissing,
+    common_params_doc,
+    estimator_dataclass,
+)
 from rmtclean.estimators._bulkvalue import OneBulkValue
 from rmtclean.rules._clipping import eigen_clip
 from rmtclean.rules._types import CleanedEigenvalues
@@ -94,14 +101,14 @@ _DOC = r"""Covariance with the noise eigenvalues clipped to their mean.
     """
 
 
-class EigenClip(OneBulkValue, SpectralCovariance):
+@estimator_dataclass
+class EigenClip(OneBulkValue, TakesMissing, SpectralCovariance):
     __doc__ = OneBulkValue.fill_doc(
         _DOC.replace("%(common)s", common_params_doc().rstrip("\n")),
         "``n_keep`` or a numeric ``edge``",
     )
 
-    _parameter_specs: dict = {
-        **OneBulkValue._eigen_solver_spec,
+    _parameter_specs: ClassVar[dict] = {
         "edge": [
             Options({"auto", "bulk-fit", "tracy-widom"}),
             Interval(float, 0.0, None, closed="left"),
@@ -110,36 +117,9 @@ class EigenClip(OneBulkValue, SpectralCovariance):
         "n_keep": [None, Interval(int, 0, None, closed="left")],
     }
 
-    def __init__(
-        self,
-        *,
-        edge="auto",
-        alpha=0.05,
-        n_keep=None,
-        store_precision=True,
-        assume_centered=False,
-        standardize=False,
-        route="auto",
-        store_covariance="auto",
-        half_life=None,
-        missing="error",
-        vol_half_life=None,
-        eigen_solver="partial",
-    ):
-        super().__init__(
-            store_precision=store_precision,
-            assume_centered=assume_centered,
-            standardize=standardize,
-            route=route,
-            store_covariance=store_covariance,
-            half_life=half_life,
-            missing=missing,
-            vol_half_life=vol_half_life,
-        )
-        self.eigen_solver = eigen_solver
-        self.edge = edge
-        self.alpha = alpha
-        self.n_keep = n_keep
+    edge: str | float = "auto"
+    alpha: float = 0.05
+    n_keep: int | None = None
 
     def _randomized_request(self, dof: float, n_features: int):
         if self.n_keep is not None:

@@ -3,11 +3,17 @@
 from __future__ import annotations
 
 import math
+from typing import ClassVar
 
 import numpy as np
 
 from rmtclean._validation import Interval, Options
-from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.estimators._base import (
+    SpectralCovariance,
+    TakesMissing,
+    common_params_doc,
+    estimator_dataclass,
+)
 from rmtclean.rules._combine import (
     _crossvalidated_linear_weight,
     blend_linear,
@@ -163,10 +169,11 @@ _DOC = r"""Analytical nonlinear shrinkage of the sample eigenvalues.
     """
 
 
-class KernelShrink(SpectralCovariance):
+@estimator_dataclass
+class KernelShrink(TakesMissing, SpectralCovariance):
     __doc__ = _DOC.replace("%(common)s", common_params_doc().rstrip("\n"))
 
-    _parameter_specs: dict = {
+    _parameter_specs: ClassVar[dict] = {
         "bandwidth": [None, Interval(float, 0.0, None, closed="neither")],
         "formula": [Options(KERNEL_FORMULAS)],
         "n_jobs": [None, Interval(int, -1, -1), Interval(int, 1, None)],
@@ -180,38 +187,11 @@ class KernelShrink(SpectralCovariance):
         # the spectrum (and so keeps the dask and missing-data routes).
         return getattr(self, "near_singular", "kernel") == "cross-validated"
 
-    def __init__(
-        self,
-        *,
-        bandwidth=None,
-        formula="stabilized",
-        n_jobs=None,
-        near_singular="kernel",
-        n_folds=10,
-        store_precision=True,
-        assume_centered=False,
-        standardize=False,
-        route="auto",
-        store_covariance="auto",
-        half_life=None,
-        missing="error",
-        vol_half_life=None,
-    ):
-        super().__init__(
-            store_precision=store_precision,
-            assume_centered=assume_centered,
-            standardize=standardize,
-            route=route,
-            store_covariance=store_covariance,
-            half_life=half_life,
-            missing=missing,
-            vol_half_life=vol_half_life,
-        )
-        self.bandwidth = bandwidth
-        self.formula = formula
-        self.n_jobs = n_jobs
-        self.near_singular = near_singular
-        self.n_folds = n_folds
+    bandwidth: float | None = None
+    formula: str = "stabilized"
+    n_jobs: int | None = None
+    near_singular: str = "kernel"
+    n_folds: int = 10
 
     def _clean(self, spectrum: SampleSpectrum) -> CleanedEigenvalues:
         cross_validated = self.near_singular == "cross-validated"

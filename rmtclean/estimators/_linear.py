@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import warnings
+from typing import ClassVar
 
 import numpy as np
 from scipy.linalg import lapack
@@ -16,7 +17,11 @@ from rmtclean._validation import (
     rank_tolerance,
 )
 from rmtclean.distributed import is_dask_array
-from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.estimators._base import (
+    SpectralCovariance,
+    common_params_doc,
+    estimator_dataclass,
+)
 from rmtclean.exceptions import WeakEstimateWarning
 from rmtclean.rules._linear import (
     INTENSITY_METHODS,
@@ -186,13 +191,14 @@ _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
     """
 
 
+@estimator_dataclass
 class LinearShrink(SpectralCovariance):
     # The base's parameters, less ``missing``, which LinearShrink does not take.
     __doc__ = _DOC.replace(
         "%(common)s", common_params_doc(exclude=("missing",)).rstrip("\n") + "\n"
     )
 
-    _parameter_specs: dict = {
+    _parameter_specs: ClassVar[dict] = {
         "target": [Options(SHRINKAGE_TARGETS)],
         "intensity": [
             Options(INTENSITY_METHODS),
@@ -202,32 +208,9 @@ class LinearShrink(SpectralCovariance):
     }
     _needs_samples = True
 
-    def __init__(
-        self,
-        *,
-        target="identity",
-        intensity="ledoit-wolf",
-        bias=True,
-        store_precision=True,
-        assume_centered=False,
-        standardize=False,
-        route="auto",
-        store_covariance="auto",
-        half_life=None,
-        vol_half_life=None,
-    ):
-        super().__init__(
-            store_precision=store_precision,
-            assume_centered=assume_centered,
-            standardize=standardize,
-            route=route,
-            store_covariance=store_covariance,
-            half_life=half_life,
-            vol_half_life=vol_half_life,
-        )
-        self.target = target
-        self.intensity = intensity
-        self.bias = bias
+    target: str = "identity"
+    intensity: str | float = "ledoit-wolf"
+    bias: bool = True
 
     def fit(self, X, y=None, sample_weight=None):
         """Fit the shrunk covariance to ``X``; see :meth:`SpectralCovariance.fit`."""

@@ -2,10 +2,17 @@
 
 from __future__ import annotations
 
+from typing import ClassVar
+
 import numpy as np
 
 from rmtclean._validation import Interval, Options
-from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.estimators._base import (
+    SpectralCovariance,
+    TakesMissing,
+    common_params_doc,
+    estimator_dataclass,
+)
 from rmtclean.estimators._bulkvalue import OneBulkValue
 from rmtclean.rules._spiked import SPIKE_SHRINKERS, spike_shrink
 from rmtclean.rules._types import CleanedEigenvalues
@@ -108,14 +115,14 @@ _DOC = r"""Optimal eigenvalue shrinkage in the spiked covariance model.
     """
 
 
-class SpikeShrink(OneBulkValue, SpectralCovariance):
+@estimator_dataclass
+class SpikeShrink(OneBulkValue, TakesMissing, SpectralCovariance):
     __doc__ = OneBulkValue.fill_doc(
         _DOC.replace("%(common)s", common_params_doc().rstrip("\n")),
         "``noise_variance`` given as a number",
     )
 
-    _parameter_specs: dict = {
-        **OneBulkValue._eigen_solver_spec,
+    _parameter_specs: ClassVar[dict] = {
         "loss": [Options(SPIKE_SHRINKERS)],
         "noise_variance": [
             None,
@@ -124,34 +131,8 @@ class SpikeShrink(OneBulkValue, SpectralCovariance):
         ],
     }
 
-    def __init__(
-        self,
-        *,
-        loss="frobenius",
-        noise_variance=None,
-        store_precision=True,
-        assume_centered=False,
-        standardize=False,
-        route="auto",
-        store_covariance="auto",
-        half_life=None,
-        missing="error",
-        vol_half_life=None,
-        eigen_solver="partial",
-    ):
-        super().__init__(
-            store_precision=store_precision,
-            assume_centered=assume_centered,
-            standardize=standardize,
-            route=route,
-            store_covariance=store_covariance,
-            half_life=half_life,
-            missing=missing,
-            vol_half_life=vol_half_life,
-        )
-        self.eigen_solver = eigen_solver
-        self.loss = loss
-        self.noise_variance = noise_variance
+    loss: str = "frobenius"
+    noise_variance: str | float | None = None
 
     def _randomized_request(self, dof: float, n_features: int):
         s2 = self.noise_variance

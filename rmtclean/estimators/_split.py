@@ -2,13 +2,21 @@
 
 from __future__ import annotations
 
+from typing import ClassVar
+
+import numpy as np
+
 from rmtclean._validation import (
     BOOLEAN,
     RANDOM_STATE,
     Interval,
     Options,
 )
-from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.estimators._base import (
+    SpectralCovariance,
+    common_params_doc,
+    estimator_dataclass,
+)
 from rmtclean.rules._split import (
     NULL_SPACE_METHODS,
     _generator,
@@ -119,10 +127,13 @@ _DOC = r"""Split-sample shrinkage: eigenvectors from one part, variances from th
     """
 
 
+@estimator_dataclass
 class SplitShrink(SpectralCovariance):
-    __doc__ = _DOC.replace("%(common)s", common_params_doc().rstrip("\n"))
+    __doc__ = _DOC.replace(
+        "%(common)s", common_params_doc(exclude=("missing",)).rstrip("\n")
+    )
 
-    _parameter_specs: dict = {
+    _parameter_specs: ClassVar[dict] = {
         "train_size": [
             Interval(float, 0.0, 1.0, closed="neither"),
             Interval(int, 1, None),
@@ -135,36 +146,11 @@ class SplitShrink(SpectralCovariance):
     }
     _needs_samples = True
 
-    def __init__(
-        self,
-        *,
-        train_size=0.8,
-        n_splits=10,
-        shuffle=True,
-        null_space="pooled",
-        random_state=None,
-        store_precision=True,
-        assume_centered=False,
-        standardize=False,
-        route="auto",
-        store_covariance="auto",
-        half_life=None,
-        vol_half_life=None,
-    ):
-        super().__init__(
-            store_precision=store_precision,
-            assume_centered=assume_centered,
-            standardize=standardize,
-            route=route,
-            store_covariance=store_covariance,
-            half_life=half_life,
-            vol_half_life=vol_half_life,
-        )
-        self.train_size = train_size
-        self.n_splits = n_splits
-        self.shuffle = shuffle
-        self.null_space = null_space
-        self.random_state = random_state
+    train_size: float | int | str = 0.8
+    n_splits: int = 10
+    shuffle: bool = True
+    null_space: str = "pooled"
+    random_state: int | np.random.Generator | np.random.RandomState | None = None
 
     def _clean(self, spectrum: SampleSpectrum) -> CleanedEigenvalues:
         X, w = spectrum.samples, spectrum.weights

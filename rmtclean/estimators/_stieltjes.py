@@ -2,8 +2,15 @@
 
 from __future__ import annotations
 
+from typing import ClassVar
+
 from rmtclean._validation import BOOLEAN, Interval, Options
-from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.estimators._base import (
+    SpectralCovariance,
+    TakesMissing,
+    common_params_doc,
+    estimator_dataclass,
+)
 from rmtclean.rules._stieltjes import _stieltjes_rule
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import SampleSpectrum
@@ -109,10 +116,11 @@ _DOC = r"""Rotationally invariant estimator (RIE) of the covariance.
     """
 
 
-class StieltjesShrink(SpectralCovariance):
+@estimator_dataclass
+class StieltjesShrink(TakesMissing, SpectralCovariance):
     __doc__ = _DOC.replace("%(common)s", common_params_doc().rstrip("\n"))
 
-    _parameter_specs: dict = {
+    _parameter_specs: ClassVar[dict] = {
         "eta": [None, Interval(float, 0.0, None, closed="neither")],
         "regularize": [BOOLEAN],
         "preserve_trace": [BOOLEAN],
@@ -120,38 +128,11 @@ class StieltjesShrink(SpectralCovariance):
         "n_jobs": [None, Interval(int, -1, -1), Interval(int, 1, None)],
     }
 
-    def __init__(
-        self,
-        *,
-        eta=None,
-        regularize=True,
-        preserve_trace=True,
-        width="relative",
-        n_jobs=None,
-        store_precision=True,
-        assume_centered=False,
-        standardize=False,
-        route="auto",
-        store_covariance="auto",
-        half_life=None,
-        missing="error",
-        vol_half_life=None,
-    ):
-        super().__init__(
-            store_precision=store_precision,
-            assume_centered=assume_centered,
-            standardize=standardize,
-            route=route,
-            store_covariance=store_covariance,
-            half_life=half_life,
-            missing=missing,
-            vol_half_life=vol_half_life,
-        )
-        self.eta = eta
-        self.regularize = regularize
-        self.preserve_trace = preserve_trace
-        self.width = width
-        self.n_jobs = n_jobs
+    eta: float | None = None
+    regularize: bool = True
+    preserve_trace: bool = True
+    width: str = "relative"
+    n_jobs: int | None = None
 
     def _clean(self, spectrum: SampleSpectrum) -> CleanedEigenvalues:
         out = _stieltjes_rule(

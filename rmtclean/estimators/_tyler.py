@@ -4,11 +4,16 @@ from __future__ import annotations
 
 import warnings
 from dataclasses import replace
+from typing import ClassVar
 
 import numpy as np
 
 from rmtclean._validation import Interval, Options
-from rmtclean.estimators._base import SpectralCovariance, common_params_doc
+from rmtclean.estimators._base import (
+    SpectralCovariance,
+    common_params_doc,
+    estimator_dataclass,
+)
 from rmtclean.estimators._clip import EigenClip
 from rmtclean.estimators._kernel import KernelShrink
 from rmtclean.estimators._linear import LinearShrink
@@ -200,12 +205,13 @@ default="kernel"
     """
 
 
+@estimator_dataclass
 class TylerShrink(SpectralCovariance):
     __doc__ = _DOC.replace(
         "%(common)s", common_params_doc(exclude=("missing",)).rstrip("\n")
     )
 
-    _parameter_specs: dict = {
+    _parameter_specs: ClassVar[dict] = {
         "rule": [Options(TYLER_RULES)],
         "shrinkage": [None, Interval(float, 0.0, 1.0)],
         "scale_estimate": [Options(SCALE_ESTIMATES)],
@@ -214,36 +220,11 @@ class TylerShrink(SpectralCovariance):
     }
     _needs_samples = True
 
-    def __init__(
-        self,
-        *,
-        rule="kernel",
-        shrinkage=None,
-        scale_estimate="robust",
-        tol=1e-10,
-        max_iter=200,
-        store_precision=True,
-        assume_centered=False,
-        standardize=False,
-        route="auto",
-        store_covariance="auto",
-        half_life=None,
-        vol_half_life=None,
-    ):
-        super().__init__(
-            store_precision=store_precision,
-            assume_centered=assume_centered,
-            standardize=standardize,
-            route=route,
-            store_covariance=store_covariance,
-            half_life=half_life,
-            vol_half_life=vol_half_life,
-        )
-        self.rule = rule
-        self.shrinkage = shrinkage
-        self.scale_estimate = scale_estimate
-        self.tol = tol
-        self.max_iter = max_iter
+    rule: str = "kernel"
+    shrinkage: float | None = None
+    scale_estimate: str = "robust"
+    tol: float = 1e-10
+    max_iter: int = 200
 
     def _clean(self, spectrum: SampleSpectrum) -> CleanedSpectrum:
         if self.shrinkage is not None and self.rule != "fixed-point":
