@@ -25,8 +25,8 @@ from rmtclean._validation import (
 from rmtclean.distributed import is_dask_array
 from rmtclean.estimators._base import (
     SpectralCovariance,
-    common_params_doc,
     estimator_dataclass,
+    estimator_doc,
 )
 from rmtclean.estimators._folds import (
     FoldResult,
@@ -113,6 +113,7 @@ _DOC = r"""The cleaner chosen by its held-out score, or a blend of cleaners.
         Passed to the candidates built from names that take one (SplitShrink's
         random splits). A Generator or RandomState is drawn from once per fit.
 %(common)s
+
     Attributes
     ----------
     best_estimator_ : estimator
@@ -141,16 +142,7 @@ _DOC = r"""The cleaner chosen by its held-out score, or a blend of cleaners.
         The candidates as scored (unfitted).
     n_splits_ : int
         Number of folds.
-    covariance_ : ndarray of shape (n_features, n_features) or None
-        The cleaned covariance (None when not stored densely).
-    precision_ : ndarray of shape (n_features, n_features) or None
-        Its inverse (when stored).
-    location_ : ndarray of shape (n_features,)
-        The column means (zeros when ``assume_centered``).
-    spectrum_ : CleanedSpectrum
-        The cleaned covariance in spectral form.
-    sample_eigenvalues_ : ndarray of shape (n_features,)
-        Descending sample eigenvalues, the null space's zeros last.
+%(fitted)s
     eigenvalues_ : ndarray of shape (n_features,)
         The cleaned eigenvalues, paired with ``sample_eigenvalues_``.
     eigenvectors_ : ndarray of shape (n_features, n_components)
@@ -240,9 +232,7 @@ _SPLITTER = _Special(
 
 @estimator_dataclass
 class AutoShrink(SpectralCovariance):
-    __doc__ = _DOC.replace(
-        "%(common)s", common_params_doc(exclude=("missing",)).rstrip("\n") + "\n"
-    )
+    __doc__ = estimator_doc(_DOC, exclude=("missing",))
 
     _parameter_specs: ClassVar[dict] = {
         "candidates": [None, _CANDIDATES],

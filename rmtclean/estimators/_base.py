@@ -28,8 +28,10 @@ from rmtclean.volatility import ewma_volatility
 from rmtclean.weights import exponential_weights, kish_weights
 
 __all__ = [
+    "FITTED_DOC",
     "SpectralCovariance",
     "TakesMissing",
+    "estimator_doc",
     "estimator_dataclass",
     "mixin_dataclass",
 ]
@@ -89,6 +91,21 @@ _COMMON_DOC = """
         series are demeaned first unless ``assume_centered``. Not with
         dask arrays or NaN entries. RiskMetrics' daily ``lambda = 0.94`` is
         a half-life of 11.2 rows.
+"""
+
+#: The Attributes entries every cleaner's docstring starts with (the
+#: ``%(fitted)s`` line of its template).
+FITTED_DOC = """    covariance_ : ndarray of shape (n_features, n_features) or None
+        The cleaned covariance (None when not stored densely).
+    precision_ : ndarray of shape (n_features, n_features) or None
+        Its inverse (when stored).
+    location_ : ndarray of shape (n_features,)
+        The column means (zeros when ``assume_centered``).
+    spectrum_ : CleanedSpectrum
+        The cleaned covariance in spectral form.
+    sample_eigenvalues_ : ndarray of shape (n_features,)
+        Descending sample eigenvalues (of the correlation when
+        ``standardize``), the null space's zeros last.
 """
 
 #: Cleaned eigenvalues of an incomplete-data fit are at least this times their
@@ -669,3 +686,12 @@ def common_params_doc(exclude: tuple[str, ...] = ()) -> str:
     entries = re.split(r"\n(?=    \w+ : )", _COMMON_DOC)
     kept = [e for e in entries if e.strip().split(" :")[0] not in exclude]
     return "\n".join(kept)
+
+
+def estimator_doc(doc: str, exclude: tuple[str, ...] = ()) -> str:
+    """A cleaner's docstring from its template: ``%(common)s`` becomes the
+    common Parameters entries (less ``exclude``), ``%(fitted)s`` the common
+    Attributes entries."""
+    return doc.replace("%(fitted)s\n", FITTED_DOC).replace(
+        "%(common)s", common_params_doc(exclude).rstrip("\n")
+    )

@@ -8,8 +8,8 @@ from rmtclean._validation import Interval, Options
 from rmtclean.estimators._base import (
     SpectralCovariance,
     TakesMissing,
-    common_params_doc,
     estimator_dataclass,
+    estimator_doc,
 )
 from rmtclean.estimators._bulkvalue import OneBulkValue
 from rmtclean.rules._clipping import eigen_clip
@@ -46,17 +46,7 @@ _DOC = r"""Covariance with the noise eigenvalues clipped to their mean.
 %(common)s
     Attributes
     ----------
-    covariance_ : ndarray of shape (n_features, n_features) or None
-        The cleaned covariance (None when not stored densely).
-    precision_ : ndarray of shape (n_features, n_features) or None
-        Its inverse (when stored).
-    location_ : ndarray of shape (n_features,)
-        The column means (zeros when ``assume_centered``).
-    spectrum_ : CleanedSpectrum
-        The cleaned covariance in spectral form.
-    sample_eigenvalues_ : ndarray of shape (n_features,)
-        Descending sample eigenvalues (of the correlation when
-        ``standardize``), the null space's zeros last.
+%(fitted)s
     eigenvalues_ : ndarray of shape (n_features,)
         The cleaned eigenvalues, paired with ``sample_eigenvalues_``: the
         ``n_signal_`` kept ones, then ``bulk_mean_``.
@@ -104,7 +94,7 @@ _DOC = r"""Covariance with the noise eigenvalues clipped to their mean.
 @estimator_dataclass
 class EigenClip(OneBulkValue, TakesMissing, SpectralCovariance):
     __doc__ = OneBulkValue.fill_doc(
-        _DOC.replace("%(common)s", common_params_doc().rstrip("\n")),
+        estimator_doc(_DOC),
         "``n_keep`` or a numeric ``edge``",
     )
 

@@ -11,8 +11,8 @@ from rmtclean._validation import Interval, Options
 from rmtclean.estimators._base import (
     SpectralCovariance,
     TakesMissing,
-    common_params_doc,
     estimator_dataclass,
+    estimator_doc,
 )
 from rmtclean.rules._combine import (
     _crossvalidated_linear_weight,
@@ -68,16 +68,7 @@ _DOC = r"""Analytical nonlinear shrinkage of the sample eigenvalues.
 %(common)s
     Attributes
     ----------
-    covariance_ : ndarray of shape (n_features, n_features) or None
-        The cleaned covariance (None when not stored densely).
-    precision_ : ndarray of shape (n_features, n_features) or None
-        Its inverse (when stored).
-    location_ : ndarray of shape (n_features,)
-        The column means (zeros when ``assume_centered``).
-    spectrum_ : CleanedSpectrum
-        The cleaned covariance in spectral form.
-    sample_eigenvalues_ : ndarray of shape (n_features,)
-        Descending sample eigenvalues, the null space's zeros last.
+%(fitted)s
     eigenvalues_ : ndarray of shape (n_features,)
         The shrunk eigenvalues, paired with ``sample_eigenvalues_``.
     eigenvectors_ : ndarray of shape (n_features, n_components)
@@ -171,7 +162,7 @@ _DOC = r"""Analytical nonlinear shrinkage of the sample eigenvalues.
 
 @estimator_dataclass
 class KernelShrink(TakesMissing, SpectralCovariance):
-    __doc__ = _DOC.replace("%(common)s", common_params_doc().rstrip("\n"))
+    __doc__ = estimator_doc(_DOC)
 
     _parameter_specs: ClassVar[dict] = {
         "bandwidth": [None, Interval(float, 0.0, None, closed="neither")],

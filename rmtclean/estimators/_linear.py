@@ -19,8 +19,8 @@ from rmtclean._validation import (
 from rmtclean.distributed import is_dask_array
 from rmtclean.estimators._base import (
     SpectralCovariance,
-    common_params_doc,
     estimator_dataclass,
+    estimator_doc,
 )
 from rmtclean.exceptions import WeakEstimateWarning
 from rmtclean.rules._linear import (
@@ -79,6 +79,7 @@ _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
         and evaluates the same formulas with ``n = T - 1``. Either way
         ``degrees_of_freedom_`` holds the divisor used.
 %(common)s
+
     Attributes
     ----------
     shrinkage_ : float
@@ -194,9 +195,7 @@ _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
 @estimator_dataclass
 class LinearShrink(SpectralCovariance):
     # The base's parameters, less ``missing``, which LinearShrink does not take.
-    __doc__ = _DOC.replace(
-        "%(common)s", common_params_doc(exclude=("missing",)).rstrip("\n") + "\n"
-    )
+    __doc__ = estimator_doc(_DOC, exclude=("missing",))
 
     _parameter_specs: ClassVar[dict] = {
         "target": [Options(SHRINKAGE_TARGETS)],

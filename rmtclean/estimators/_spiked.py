@@ -10,8 +10,8 @@ from rmtclean._validation import Interval, Options
 from rmtclean.estimators._base import (
     SpectralCovariance,
     TakesMissing,
-    common_params_doc,
     estimator_dataclass,
+    estimator_doc,
 )
 from rmtclean.estimators._bulkvalue import OneBulkValue
 from rmtclean.rules._spiked import SPIKE_SHRINKERS, spike_shrink
@@ -50,17 +50,7 @@ _DOC = r"""Optimal eigenvalue shrinkage in the spiked covariance model.
 %(common)s
     Attributes
     ----------
-    covariance_ : ndarray of shape (n_features, n_features) or None
-        The cleaned covariance (None when not stored densely).
-    precision_ : ndarray of shape (n_features, n_features) or None
-        Its inverse (when stored).
-    location_ : ndarray of shape (n_features,)
-        The column means (zeros when ``assume_centered``).
-    spectrum_ : CleanedSpectrum
-        The cleaned covariance in spectral form.
-    sample_eigenvalues_ : ndarray of shape (n_features,)
-        Descending sample eigenvalues (of the correlation when
-        ``standardize``), the null space's zeros last.
+%(fitted)s
     eigenvalues_ : ndarray of shape (n_features,)
         The cleaned eigenvalues, paired with ``sample_eigenvalues_``: the
         shrunk spikes first, then ``noise_variance_``.
@@ -118,7 +108,7 @@ _DOC = r"""Optimal eigenvalue shrinkage in the spiked covariance model.
 @estimator_dataclass
 class SpikeShrink(OneBulkValue, TakesMissing, SpectralCovariance):
     __doc__ = OneBulkValue.fill_doc(
-        _DOC.replace("%(common)s", common_params_doc().rstrip("\n")),
+        estimator_doc(_DOC),
         "``noise_variance`` given as a number",
     )
 

@@ -14,8 +14,8 @@ from rmtclean._validation import (
 )
 from rmtclean.estimators._base import (
     SpectralCovariance,
-    common_params_doc,
     estimator_dataclass,
+    estimator_doc,
 )
 from rmtclean.rules._split import (
     NULL_SPACE_METHODS,
@@ -61,17 +61,7 @@ _DOC = r"""Split-sample shrinkage: eigenvectors from one part, variances from th
 %(common)s
     Attributes
     ----------
-    covariance_ : ndarray of shape (n_features, n_features) or None
-        The cleaned covariance (None when not stored densely).
-    precision_ : ndarray of shape (n_features, n_features) or None
-        Its inverse (when stored).
-    location_ : ndarray of shape (n_features,)
-        The column means (zeros when ``assume_centered``).
-    spectrum_ : CleanedSpectrum
-        The cleaned covariance in spectral form.
-    sample_eigenvalues_ : ndarray of shape (n_features,)
-        Descending sample eigenvalues (of the correlation when
-        ``standardize``), the null space's zeros last.
+%(fitted)s
     eigenvalues_ : ndarray of shape (n_features,)
         The split eigenvalues ``d_i``, paired with ``sample_eigenvalues_``
         (not sorted); the null space's common value last.
@@ -129,9 +119,7 @@ _DOC = r"""Split-sample shrinkage: eigenvectors from one part, variances from th
 
 @estimator_dataclass
 class SplitShrink(SpectralCovariance):
-    __doc__ = _DOC.replace(
-        "%(common)s", common_params_doc(exclude=("missing",)).rstrip("\n")
-    )
+    __doc__ = estimator_doc(_DOC, exclude=("missing",))
 
     _parameter_specs: ClassVar[dict] = {
         "train_size": [

@@ -8,8 +8,8 @@ from rmtclean._validation import BOOLEAN, Interval, Options
 from rmtclean.estimators._base import (
     SpectralCovariance,
     TakesMissing,
-    common_params_doc,
     estimator_dataclass,
+    estimator_doc,
 )
 from rmtclean.rules._stieltjes import _stieltjes_rule
 from rmtclean.rules._types import CleanedEigenvalues
@@ -46,16 +46,7 @@ _DOC = r"""Rotationally invariant estimator (RIE) of the covariance.
 %(common)s
     Attributes
     ----------
-    covariance_ : ndarray of shape (n_features, n_features) or None
-        The cleaned covariance (None when not stored densely).
-    precision_ : ndarray of shape (n_features, n_features) or None
-        Its inverse (when stored).
-    location_ : ndarray of shape (n_features,)
-        The column means (zeros when ``assume_centered``).
-    spectrum_ : CleanedSpectrum
-        The cleaned covariance in spectral form.
-    sample_eigenvalues_ : ndarray of shape (n_features,)
-        Descending sample eigenvalues, the null space's zeros last.
+%(fitted)s
     eigenvalues_ : ndarray of shape (n_features,)
         The cleaned eigenvalues, paired with ``sample_eigenvalues_``.
     eigenvectors_ : ndarray of shape (n_features, n_components)
@@ -118,7 +109,7 @@ _DOC = r"""Rotationally invariant estimator (RIE) of the covariance.
 
 @estimator_dataclass
 class StieltjesShrink(TakesMissing, SpectralCovariance):
-    __doc__ = _DOC.replace("%(common)s", common_params_doc().rstrip("\n"))
+    __doc__ = estimator_doc(_DOC)
 
     _parameter_specs: ClassVar[dict] = {
         "eta": [None, Interval(float, 0.0, None, closed="neither")],

@@ -11,8 +11,8 @@ import numpy as np
 from rmtclean._validation import Interval, Options
 from rmtclean.estimators._base import (
     SpectralCovariance,
-    common_params_doc,
     estimator_dataclass,
+    estimator_doc,
 )
 from rmtclean.estimators._clip import EigenClip
 from rmtclean.estimators._kernel import KernelShrink
@@ -207,9 +207,7 @@ default="kernel"
 
 @estimator_dataclass
 class TylerShrink(SpectralCovariance):
-    __doc__ = _DOC.replace(
-        "%(common)s", common_params_doc(exclude=("missing",)).rstrip("\n")
-    )
+    __doc__ = estimator_doc(_DOC, exclude=("missing",))
 
     _parameter_specs: ClassVar[dict] = {
         "rule": [Options(TYLER_RULES)],
