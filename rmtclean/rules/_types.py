@@ -7,6 +7,8 @@ from typing import TYPE_CHECKING
 
 import numpy as np
 
+from rmtclean._validation import numerical_rank
+
 if TYPE_CHECKING:  # the spectrum layer sits below the rules
     from rmtclean.spectrum._spikes import SpikeInversion
 
@@ -214,17 +216,16 @@ SpikeDetails, SplitDetails or None
 def positive_rank(eigenvalues: np.ndarray, n_samples: float, n_features: int):
     """``(r, n_eff)``: the positive eigenvalues' count and the sample size.
 
-    ``eigenvalues`` is a full descending sample spectrum. Values at or below
-    ``1e-12 max(N, dof)`` times the largest count as zeros (collinear
-    columns, repeated rows: rounding of an ``eigh`` is well above ``eps``
-    there); when ``r`` is below ``min(N, dof)`` the rank replaces the
+    ``eigenvalues`` is a full descending sample spectrum. Values within
+    :func:`rmtclean._validation.numerical_rank`'s tolerance (numpy's
+    ``matrix_rank`` tolerance with the sizes N and dof) count as zeros
+    (collinear columns, repeated rows); when ``r`` is below
+    ``min(N, dof)`` the rank replaces the
     degrees of freedom as the effective sample size, so that the zeros are
     the null space of a rank-``r`` sample.
     """
     n = float(n_samples)
-    top = float(eigenvalues[0]) if eigenvalues.size else 0.0
-    tol = 1e-12 * max(n_features, n) * top
-    r = int(np.count_nonzero(eigenvalues > tol))
+    r = numerical_rank(eigenvalues, n_features, n)
     return r, (float(r) if r < min(n_features, n) else n)
 
 

@@ -15,7 +15,7 @@ from numbers import Integral
 import numpy as np
 import scipy.optimize
 
-from rmtclean._validation import check_sizes, check_spectrum, numerical_rank
+from rmtclean._validation import check_spectrum, numerical_rank
 
 __all__ = ["BulkFit", "fit_bulk"]
 
@@ -375,13 +375,3 @@ def fit_bulk(
             "largest) is all zero: there is no noise level to fit."
         )
     return _fit_bulk(values, n_samples, n_features, n_signal, bool(fix_ratio), method)
-
-
-# The names the spectrum modules import (one definition: rmtclean._validation).
-_check_sizes = check_sizes
-_numerical_rank = numerical_rank
-
-
-def _check_eigenvalues(eigenvalues, n_features: int, function: str) -> np.ndarray:
-    """:func:`rmtclean._validation.check_spectrum`'s values for a known ``N``."""
-    return check_spectrum(eigenvalues, 1.0, n_features, function)[0]

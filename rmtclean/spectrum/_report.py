@@ -8,12 +8,8 @@ from typing import NamedTuple
 
 import numpy as np
 
-from rmtclean.spectrum._bulk import (
-    _check_eigenvalues,
-    _check_sizes,
-    _fit_bulk,
-    _numerical_rank,
-)
+from rmtclean._validation import check_spectrum, numerical_rank
+from rmtclean.spectrum._bulk import _fit_bulk
 from rmtclean.spectrum._edge import (
     DEFAULT_CONSTANTS,
     _check_alpha,
@@ -256,7 +252,7 @@ def detect_noise_and_signal(values, n_samples, n_features, alpha=0.05):
     degrees of freedom).
     """
     n = float(n_samples)
-    values = values[: _numerical_rank(values, n)]
+    values = values[: numerical_rank(values, n)]
     if values.size < 3 or math.ceil(n) < 3:
         return None
     high = min(values.size - 2, math.ceil(n) - 2)
@@ -314,12 +310,13 @@ def spectrum_report(
     0
     """
     function = "analyze_spectrum"
-    n, n_features = _check_sizes(n_samples, n_features, function)
-    all_values = _check_eigenvalues(eigenvalues, n_features, function)
+    all_values, n, n_features = check_spectrum(
+        eigenvalues, n_samples, n_features, function
+    )
     alpha = _check_alpha(alpha, function)
     fix_ratio = _check_bool(fix_ratio, "fix_ratio", function)
     # rounding-error zeros (repeated rows, collinear columns) are null space
-    values = all_values[: _numerical_rank(all_values, n)]
+    values = all_values[: numerical_rank(all_values, n)]
     if values.size < 3 or math.ceil(n) < 3:
         raise ValueError(
             f"{function} needs at least 3 nonzero sample eigenvalues and 3 degrees "
