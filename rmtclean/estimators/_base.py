@@ -247,7 +247,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
             When sample eigenvalues the sample size allows are zero to
             rounding (duplicated or collinear columns, repeated rows).
         """
-        check_params(self)
+        self._check_params()
         if is_dask_array(X):
             self._refuse_vol_scaling("dask arrays")
             return self._fit_dask(X, sample_weight)
@@ -255,11 +255,25 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         if self._missing_method() != "error" and np.isnan(X).any():
             self._refuse_vol_scaling(f"missing={self.missing!r} with NaN entries")
             return self._fit_missing(X, sample_weight)
+        if self._fit_without_spectrum(X, sample_weight):
+            return self
         spectrum, volatility = self._fit_spectrum(X, sample_weight)
         self._warn_if_weak(spectrum)
         self._store(spectrum, self._clean(spectrum), X.dtype)
         self.volatility_ = volatility
         return self
+
+    def _check_params(self) -> None:
+        """Validate the parameters (a subclass adds checks across them)."""
+        check_params(self)
+
+    def _fit_without_spectrum(self, X, sample_weight) -> bool:
+        """Fit validated rows ``X`` without a sample spectrum, if the rule can.
+
+        Returns whether it did (LinearShrink's direct dense route); by
+        default False, and the fit goes through the sample spectrum.
+        """
+        return False
 
     def _refuse_vol_scaling(self, what: str) -> None:
         if getattr(self, "vol_half_life", None) is not None:

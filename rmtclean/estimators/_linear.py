@@ -12,11 +12,9 @@ from rmtclean._validation import (
     BOOLEAN,
     Interval,
     Options,
-    check_params,
     numerical_rank,
     rank_tolerance,
 )
-from rmtclean.distributed import is_dask_array
 from rmtclean.estimators._base import (
     SpectralCovariance,
     estimator_dataclass,
@@ -47,6 +45,38 @@ _DEFERRED = (
     "sample_eigenvalues_",
     "n_signal_",
 )
+
+
+class _DeferredAttribute:
+    """A fitted attribute: set by a spectral fit, or read from the direct
+    fit's ``_DeferredSpectrum`` (computed on first read and kept there, so
+    using the fit leaves the estimator's ``__dict__`` unchanged)."""
+
+    def __set_name__(self, owner, name: str) -> None:
+        self.name = name
+
+    def __get__(self, obj, objtype=None):
+        if obj is None:
+            return self
+        values = obj.__dict__
+        if self.name in values:
+            return values[self.name]
+        deferred = values.get("_deferred")
+        if deferred is None:
+            raise AttributeError(
+                f"{type(obj).__name__!r} object has no attribute {self.name!r}"
+            )
+        return deferred.get(self.name)
+
+    def __set__(self, obj, value) -> None:
+        obj.__dict__[self.name] = value
+
+    def __delete__(self, obj) -> None:
+        try:
+            del obj.__dict__[self.name]
+        except KeyError:
+            raise AttributeError(self.name) from None
+
 
 _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
 
@@ -211,27 +241,37 @@ class LinearShrink(SpectralCovariance):
     intensity: str | float = "ledoit-wolf"
     bias: bool = True
 
-    def fit(self, X, y=None, sample_weight=None):
-        """Fit the shrunk covariance to ``X``; see :meth:`SpectralCovariance.fit`."""
-        check_params(self)
+    # Read from the direct fit's deferred spectrum on first access.
+    spectrum_ = _DeferredAttribute()
+    eigenvalues_ = _DeferredAttribute()
+    eigenvectors_ = _DeferredAttribute()
+    sample_eigenvalues_ = _DeferredAttribute()
+    n_signal_ = _DeferredAttribute()
+
+    def _check_params(self) -> None:
+        super()._check_params()
         _check_combination(self.target, self.intensity, type(self).__name__)
+
+    def _fit_without_spectrum(self, X, sample_weight) -> bool:
+        """The direct dense route (see :meth:`_fit_direct`), where it applies."""
         plain = (
             sample_weight is None
             and self.half_life is None
             and self.vol_half_life is None
+            and not self.standardize
         )
-        if plain and not self.standardize and not is_dask_array(X):
-            Xv = self._validate_fit_data(X)
-            if self._direct_route(Xv.shape) and self._fit_direct(Xv):
-                return self
+        return plain and self._direct_route(X.shape) and self._fit_direct(X)
+
+    def _store(self, spectrum: SampleSpectrum, cleaned, dtype) -> None:
+        """The base's attributes, with S's divisor: the number of samples
+        (``bias``) in place of the degrees of freedom."""
         self.__dict__.pop("_deferred", None)
-        super().fit(X, y, sample_weight=sample_weight)
+        super()._store(spectrum, cleaned, dtype)
         dof = self.degrees_of_freedom_
         self.degrees_of_freedom_ = self._divisor(dof)
         self.sample_eigenvalues_ = self.sample_eigenvalues_ * (
             dof / self.degrees_of_freedom_
         )
-        return self
 
     def _divisor(self, dof: float) -> float:
         """The divisor of S: the number of samples (bias) or the dof."""
@@ -306,16 +346,6 @@ class LinearShrink(SpectralCovariance):
         self.volatility_ = None
         self.degrees_of_freedom_ = n
         return True
-
-    def __getattr__(self, name):
-        # Only reached when normal lookup fails: the deferred attributes of a
-        # direct fit.
-        deferred = self.__dict__.get("_deferred")
-        if deferred is not None and name in _DEFERRED:
-            return deferred.get(name)
-        raise AttributeError(
-            f"{type(self).__name__!r} object has no attribute {name!r}"
-        )
 
     def _clean(self, spectrum: SampleSpectrum):
         dof = float(spectrum.n_samples)
