@@ -26,8 +26,8 @@ from rmtclean.distributed import is_dask_array
 from rmtclean.estimators._base import (
     SpectralCovariance,
     estimator_dataclass,
-    estimator_doc,
 )
+from rmtclean.estimators._docs import estimator_doc
 from rmtclean.estimators._folds import (
     FoldResult,
     common_names,
@@ -150,12 +150,8 @@ _DOC = r"""The cleaner chosen by its held-out score, or a blend of cleaners.
         The winner's; for a blend, the signal count of
         :func:`rmtclean.analyze_spectrum` on the sample spectrum (one count
         per data set).
-    scale_ : ndarray of shape (n_features,) or None
     degrees_of_freedom_ : float
-    volatility_ : ndarray of shape (n_features,) or None
-        The volatility forecast with ``vol_half_life``.
-    n_features_in_ : int
-    feature_names_in_ : ndarray of shape (n_features_in_,)
+%(fitted_end)s
 
     See Also
     --------

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import re
 import warnings
 from dataclasses import dataclass, replace
 from typing import ClassVar
@@ -28,85 +27,12 @@ from rmtclean.volatility import ewma_volatility
 from rmtclean.weights import exponential_weights, kish_weights
 
 __all__ = [
-    "FITTED_DOC",
     "SpectralCovariance",
     "TakesMissing",
-    "estimator_doc",
     "estimator_dataclass",
     "mixin_dataclass",
 ]
 
-_COMMON_DOC = """
-    store_precision : bool, default=True
-        Store the dense precision matrix ``precision_`` (when the covariance
-        is stored densely). It is formed from ``spectrum_`` on first access
-        and then kept; ``get_precision()`` returns the same array.
-    assume_centered : bool, default=False
-        If True, the data are not demeaned and the sample covariance uses
-        ``T`` degrees of freedom instead of ``T - 1``.
-    standardize : bool, default=False
-        Clean the correlation matrix, then restore the variances:
-        ``covariance_ = D R D`` with ``D`` the column standard deviations
-        and ``R`` the cleaned correlation.
-    route : {"auto", "dense", "gram"}, default="auto"
-        How the sample spectrum is computed: ``"dense"`` forms the N x N
-        sample covariance and calls ``eigh``; ``"gram"`` diagonalises the
-        T x T Gram matrix of the data and never forms an N x N matrix. ``"auto"`` uses
-        ``"gram"`` when N exceeds the number of samples or 5,000.
-    store_covariance : "auto" or bool, default="auto"
-        Whether ``covariance_`` (and ``precision_``) are stored as dense
-        N x N arrays (8 N^2 bytes each). ``"auto"`` stores them up to
-        N = 5,000. Otherwise they are ``None``, and ``spectrum_`` (a
-        :class:`~rmtclean.spectrum.CleanedSpectrum`) serves ``score``,
-        ``mahalanobis``, ``transform`` and ``spectrum_.solve/logdet``
-        without an N x N array.
-    half_life : float or None, default=None
-        Weight the rows (in time order, oldest first) by
-        ``2 ** (-age / half_life)``, the newest row weight 1. The rules then
-        see Kish's effective sample size ``n_eff = (sum w)^2 / sum w^2`` in
-        place of ``T``: ``degrees_of_freedom_ = n_eff - 1`` (``n_eff`` if
-        ``assume_centered``), and the Marchenko-Pastur ratio is ``N / dof``.
-        Combines with ``sample_weight`` (frequency weights) as in
-        :func:`rmtclean.weights.kish_weights`.
-    missing : {"error", "pairwise", "em"}, default="error"
-        What to do with NaN entries in ``X``. ``"error"`` raises.
-        ``"pairwise"`` cleans the pairwise-deletion covariance, ``"em"`` the
-        Gaussian EM estimate (see :mod:`rmtclean.missing`); the cleaned
-        eigenvalues are floored at ``1e-8`` times their mean, so the result
-        is positive definite. Caveats: the rules were derived for complete
-        data and receive a heuristic sample size (the mean number of rows two
-        columns share, less one); pairwise estimates can be indefinite before
-        cleaning (negative eigenvalues are set to zero); neither weights nor
-        cleaners that need the data rows are supported.
-    vol_half_life : float or None, default=None
-        Devolatilise each series before cleaning (for returns whose
-        volatility changes over time): each column is divided by its causal
-        exponentially weighted volatility with this half-life in rows
-        (:func:`rmtclean.volatility.ewma_volatility`: from earlier rows
-        only, the recursion seeded on the mean square of the first
-        ``min(T, 20)`` rows), the cleaner runs on the correlation of the
-        scaled series, and ``covariance_ = V R V`` with ``R`` that cleaned
-        correlation and ``V = diag(volatility_)`` the volatility forecast
-        for the row after the last. ``standardize`` is then implied; the
-        series are demeaned first unless ``assume_centered``. Not with
-        dask arrays or NaN entries. RiskMetrics' daily ``lambda = 0.94`` is
-        a half-life of 11.2 rows.
-"""
-
-#: The Attributes entries every cleaner's docstring starts with (the
-#: ``%(fitted)s`` line of its template).
-FITTED_DOC = """    covariance_ : ndarray of shape (n_features, n_features) or None
-        The cleaned covariance (None when not stored densely).
-    precision_ : ndarray of shape (n_features, n_features) or None
-        Its inverse (when stored).
-    location_ : ndarray of shape (n_features,)
-        The column means (zeros when ``assume_centered``).
-    spectrum_ : CleanedSpectrum
-        The cleaned covariance in spectral form.
-    sample_eigenvalues_ : ndarray of shape (n_features,)
-        Descending sample eigenvalues (of the correlation when
-        ``standardize``), the null space's zeros last.
-"""
 
 #: Cleaned eigenvalues of an incomplete-data fit are at least this times their
 #: mean, which makes the result positive definite.
@@ -194,7 +120,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
     _needs_samples = False
 
     # The parameters every estimator takes, with their defaults; the
-    # docstrings describe them through ``common_params_doc``.
+    # docstrings describe them through ``_docs.common_params_doc``.
     store_precision: bool = True
     assume_centered: bool = False
     standardize: bool = False
@@ -688,24 +614,3 @@ class _DeferredPrecision:
             dense = self._spectrum.to_dense(-1.0)
             self._value = dense.astype(self._dtype, copy=False)
         return self._value
-
-
-def common_params_doc(exclude: tuple[str, ...] = ()) -> str:
-    """The Parameters entries shared by every estimator (for docstrings).
-
-    ``exclude`` names entries to leave out (parameters a class does not take).
-    """
-    if not exclude:
-        return _COMMON_DOC
-    entries = re.split(r"\n(?=    \w+ : )", _COMMON_DOC)
-    kept = [e for e in entries if e.strip().split(" :")[0] not in exclude]
-    return "\n".join(kept)
-
-
-def estimator_doc(doc: str, exclude: tuple[str, ...] = ()) -> str:
-    """A cleaner's docstring from its template: ``%(common)s`` becomes the
-    common Parameters entries (less ``exclude``), ``%(fitted)s`` the common
-    Attributes entries."""
-    return doc.replace("%(fitted)s\n", FITTED_DOC).replace(
-        "%(common)s", common_params_doc(exclude).rstrip("\n")
-    )

@@ -9,9 +9,9 @@ from rmtclean.estimators._base import (
     SpectralCovariance,
     TakesMissing,
     estimator_dataclass,
-    estimator_doc,
 )
 from rmtclean.estimators._bulkvalue import OneBulkValue
+from rmtclean.estimators._docs import estimator_doc
 from rmtclean.rules._clipping import eigen_clip
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import SampleSpectrum
@@ -59,12 +59,9 @@ _DOC = r"""Covariance with the noise eigenvalues clipped to their mean.
         The value given to every clipped eigenvalue.
     noise_variance_ : float or None
         The fitted noise variance for a fitted edge, else None.
-    scale_ : ndarray of shape (n_features,) or None
-        Column standard deviations when ``standardize``.
     degrees_of_freedom_ : float
         Degrees of freedom of the sample covariance.
-    n_features_in_ : int
-    feature_names_in_ : ndarray of shape (n_features_in_,)
+%(fitted_end)s
 
     See Also
     --------

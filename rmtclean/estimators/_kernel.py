@@ -12,8 +12,8 @@ from rmtclean.estimators._base import (
     SpectralCovariance,
     TakesMissing,
     estimator_dataclass,
-    estimator_doc,
 )
+from rmtclean.estimators._docs import estimator_doc
 from rmtclean.rules._combine import (
     _crossvalidated_linear_weight,
     blend_linear,
@@ -73,11 +73,7 @@ _DOC = r"""Analytical nonlinear shrinkage of the sample eigenvalues.
         The shrunk eigenvalues, paired with ``sample_eigenvalues_``.
     eigenvectors_ : ndarray of shape (n_features, n_components)
         The sample eigenvectors.
-    n_signal_ : int or None
-        The signal count of :func:`rmtclean.analyze_spectrum` on the same
-        sample spectrum (the rule does not use it; one count per data set).
-        None when there are fewer than 3 nonzero eigenvalues or degrees of
-        freedom.
+%(report_count)s
     bandwidth_ : float
         The global bandwidth used.
     n_floored_ : int
@@ -86,11 +82,8 @@ _DOC = r"""Analytical nonlinear shrinkage of the sample eigenvalues.
     combination_weight_ : float
         The weight ``tau w`` of linear shrinkage applied; 0.0 with
         ``near_singular="kernel"`` and outside ``|N/dof - 1| < 0.2``.
-    scale_ : ndarray of shape (n_features,) or None
-        Column standard deviations when ``standardize``.
     degrees_of_freedom_ : float
-    n_features_in_ : int
-    feature_names_in_ : ndarray of shape (n_features_in_,)
+%(fitted_end)s
 
     See Also
     --------

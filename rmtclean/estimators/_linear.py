@@ -18,8 +18,8 @@ from rmtclean._validation import (
 from rmtclean.estimators._base import (
     SpectralCovariance,
     estimator_dataclass,
-    estimator_doc,
 )
+from rmtclean.estimators._docs import estimator_doc
 from rmtclean.exceptions import WeakEstimateWarning
 from rmtclean.rules._linear import (
     INTENSITY_METHODS,
@@ -136,17 +136,10 @@ _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
     eigenvectors_ : ndarray of shape (n_features, n_components)
         The sample eigenvectors (identity target) or those of the shrunk
         matrix (other targets).
-    n_signal_ : int or None
-        The signal count of :func:`rmtclean.analyze_spectrum` on the same
-        sample spectrum (the rule does not use it; one count per data set).
-        None when there are fewer than 3 nonzero eigenvalues or degrees of
-        freedom.
-    scale_ : ndarray of shape (n_features,) or None
-        Column standard deviations when ``standardize``.
+%(report_count)s
     degrees_of_freedom_ : float
         The divisor ``n`` of the sample covariance (see ``bias``).
-    n_features_in_ : int
-    feature_names_in_ : ndarray of shape (n_features_in_,)
+%(fitted_end)s
 
     See Also
     --------

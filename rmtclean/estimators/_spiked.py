@@ -11,9 +11,9 @@ from rmtclean.estimators._base import (
     SpectralCovariance,
     TakesMissing,
     estimator_dataclass,
-    estimator_doc,
 )
 from rmtclean.estimators._bulkvalue import OneBulkValue
+from rmtclean.estimators._docs import estimator_doc
 from rmtclean.rules._spiked import SPIKE_SHRINKERS, spike_shrink
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import SampleSpectrum
@@ -64,12 +64,9 @@ _DOC = r"""Optimal eigenvalue shrinkage in the spiked covariance model.
     spike_inversion_ : SpikeInversion
         Spikes, eigenvector overlaps and signal mask of the sample
         eigenvalues (:func:`rmtclean.spectrum.invert_spikes`).
-    scale_ : ndarray of shape (n_features,) or None
-        Column standard deviations when ``standardize``.
     degrees_of_freedom_ : float
         Degrees of freedom of the sample covariance.
-    n_features_in_ : int
-    feature_names_in_ : ndarray of shape (n_features_in_,)
+%(fitted_end)s
 
     See Also
     --------

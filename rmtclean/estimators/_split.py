@@ -15,8 +15,8 @@ from rmtclean._validation import (
 from rmtclean.estimators._base import (
     SpectralCovariance,
     estimator_dataclass,
-    estimator_doc,
 )
+from rmtclean.estimators._docs import estimator_doc
 from rmtclean.rules._split import (
     NULL_SPACE_METHODS,
     _generator,
@@ -67,21 +67,14 @@ _DOC = r"""Split-sample shrinkage: eigenvectors from one part, variances from th
         (not sorted); the null space's common value last.
     eigenvectors_ : ndarray of shape (n_features, n_components)
         The full-sample eigenvectors.
-    n_signal_ : int or None
-        The signal count of :func:`rmtclean.analyze_spectrum` on the same
-        sample spectrum (the rule does not use it; one count per data set).
-        None when there are fewer than 3 nonzero eigenvalues or degrees of
-        freedom.
+%(report_count)s
     train_size_ : int
         Rows in the train part of each split (``T - 1`` for leave-one-out).
     train_size_criterion_ : dict or None
         With ``train_size="auto"``: grid point -> Lam's criterion.
-    scale_ : ndarray of shape (n_features,) or None
-        Column standard deviations when ``standardize``.
     degrees_of_freedom_ : float
         Degrees of freedom of the full-sample covariance.
-    n_features_in_ : int
-    feature_names_in_ : ndarray of shape (n_features_in_,)
+%(fitted_end)s
 
     See Also
     --------

@@ -9,8 +9,8 @@ from rmtclean.estimators._base import (
     SpectralCovariance,
     TakesMissing,
     estimator_dataclass,
-    estimator_doc,
 )
+from rmtclean.estimators._docs import estimator_doc
 from rmtclean.rules._stieltjes import _stieltjes_rule
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import SampleSpectrum
@@ -51,21 +51,14 @@ _DOC = r"""Rotationally invariant estimator (RIE) of the covariance.
         The cleaned eigenvalues, paired with ``sample_eigenvalues_``.
     eigenvectors_ : ndarray of shape (n_features, n_components)
         The sample eigenvectors.
-    n_signal_ : int or None
-        The signal count of :func:`rmtclean.analyze_spectrum` on the same
-        sample spectrum (the rule does not use it; one count per data set).
-        None when there are fewer than 3 nonzero eigenvalues or degrees of
-        freedom.
+%(report_count)s
     eta_ : float
         ``eta`` times ``tr(S)/N``: the absolute offset (``"uniform"``), or
         the offset at an eigenvalue equal to the mean (``"relative"``).
     noise_variance_ : float or None
         The ``sigma^2`` of the regularisation (None without it).
-    scale_ : ndarray of shape (n_features,) or None
-        Column standard deviations when ``standardize``.
     degrees_of_freedom_ : float
-    n_features_in_ : int
-    feature_names_in_ : ndarray of shape (n_features_in_,)
+%(fitted_end)s
 
     See Also
     --------

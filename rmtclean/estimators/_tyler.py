@@ -12,9 +12,9 @@ from rmtclean._validation import Interval, Options
 from rmtclean.estimators._base import (
     SpectralCovariance,
     estimator_dataclass,
-    estimator_doc,
 )
 from rmtclean.estimators._clip import EigenClip
+from rmtclean.estimators._docs import estimator_doc
 from rmtclean.estimators._kernel import KernelShrink
 from rmtclean.estimators._linear import LinearShrink
 from rmtclean.estimators._spiked import SpikeShrink
