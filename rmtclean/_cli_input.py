@@ -15,6 +15,7 @@ __all__ = [
     "MIN_ROWS",
     "check_missing_option",
     "load_returns",
+    "missing_values_error",
     "positive_rows",
 ]
 
@@ -129,35 +130,54 @@ def check_missing_option(args) -> None:
             )
 
 
+def _missing_summary(frame):
+    """``(n_missing, rows, "'a', 'b' ...")``: the NaN entries of ``frame``."""
+    mask = frame.isna()
+    cols = [str(c) for c in frame.columns[mask.any(axis=0).to_numpy()]]
+    where = ", ".join(repr(c) for c in cols[:3]) + (" ..." if len(cols) > 3 else "")
+    return int(mask.to_numpy().sum()), len(cols), where
+
+
+def missing_values_error(frame, args) -> ValueError | None:
+    """The CLI's message for data the library refused, if they hold NaN.
+
+    Without ``--missing`` the NaN entries reach the estimator (or
+    ``analyze_spectrum``), whose validation is the one check; when it
+    fails, this names the columns and the ``--missing`` values that work.
+    """
+    if args.missing is not None:
+        return None
+    n_missing, n_columns, where = _missing_summary(frame)
+    if not n_missing:
+        return None
+    return ValueError(
+        f"{_source(args)} has {n_missing} missing value(s) in {n_columns} "
+        f"column(s) ({where}); pass {_missing_choices(args)}."
+    )
+
+
 def _handle_missing(frame, args):
     """The shared pre-step of clean and analyze for missing values (NaN).
 
-    Without ``--missing`` they are refused; ``drop`` drops incomplete rows
-    (every method); ``pairwise`` and ``em`` keep them for the estimate.
+    ``--missing drop`` drops incomplete rows (every method); ``pairwise``
+    and ``em`` keep them for the estimate. Without ``--missing`` the
+    library's validation refuses them (see :func:`missing_values_error`).
     """
-    mask = frame.isna()
-    n_missing = int(mask.to_numpy().sum())
-    if not n_missing:
+    if args.missing != "drop":
         return frame
-    cols = [str(c) for c in frame.columns[mask.any(axis=0).to_numpy()]]
-    where = ", ".join(repr(c) for c in cols[:3]) + (" ..." if len(cols) > 3 else "")
-    if args.missing is None:
+    kept = frame.dropna()
+    if kept.shape[0] == frame.shape[0]:
+        return frame
+    if kept.shape[0] < MIN_ROWS:
         raise ValueError(
-            f"{_source(args)} has {n_missing} missing value(s) in {len(cols)} "
-            f"column(s) ({where}); pass {_missing_choices(args)}."
+            f"--missing drop leaves {kept.shape[0]} complete row(s) of "
+            f"{frame.shape[0]} in {_source(args)}; at least {MIN_ROWS} are "
+            "needed: try --missing pairwise or --missing em."
         )
-    if args.missing == "drop":
-        kept = frame.dropna()
-        if kept.shape[0] < MIN_ROWS:
-            raise ValueError(
-                f"--missing drop leaves {kept.shape[0]} complete row(s) of "
-                f"{frame.shape[0]} in {_source(args)}; at least {MIN_ROWS} are "
-                "needed: try --missing pairwise or --missing em."
-            )
-        warn(
-            args,
-            f"--missing drop: dropped {frame.shape[0] - kept.shape[0]} of "
-            f"{frame.shape[0]} rows with missing values ({where}).",
-        )
-        return kept
-    return frame
+    _, _, where = _missing_summary(frame)
+    warn(
+        args,
+        f"--missing drop: dropped {frame.shape[0] - kept.shape[0]} of "
+        f"{frame.shape[0]} rows with missing values ({where}).",
+    )
+    return kept

@@ -21,6 +21,7 @@ from rmtclean._cli_input import (
     MIN_ROWS,
     check_missing_option,
     load_returns,
+    missing_values_error,
     positive_rows,
 )
 from rmtclean._cli_messages import FLAGS, WarningLines, cli_language, warn
@@ -184,7 +185,10 @@ def _cmd_clean(args) -> int:
     check_missing_option(args)
     frame = load_returns(args)
     args.columns = frame.columns
-    est = _build_estimator(args).fit(frame)
+    try:
+        est = _build_estimator(args).fit(frame)
+    except (ValueError, TypeError) as exc:
+        raise missing_values_error(frame, args) or exc from exc
     kind = args.kind or ("correlation" if args.standardize else "covariance")
     matrix = (
         est.correlation_frame() if kind == "correlation" else est.covariance_frame()
@@ -256,7 +260,10 @@ def _cmd_analyze(args) -> int:
     check_missing_option(args)
     frame = load_returns(args)
     args.columns = frame.columns
-    report = _spectrum_report(frame, args)
+    try:
+        report = _spectrum_report(frame, args)
+    except (ValueError, TypeError) as exc:
+        raise missing_values_error(frame, args) or exc from exc
     for message in report.warnings:
         warn(args, message)
     if args.json:
