@@ -3,7 +3,8 @@
 The one vocabulary for checking what a caller passes: parameter specs
 (:func:`check_value`, :func:`check_params`), frequency weights
 (:func:`check_sample_weight`), a sample spectrum with its sizes
-(:func:`check_spectrum`), and the one tolerance below which an eigenvalue
+(:func:`check_spectrum`), arrays of real numbers
+(:func:`check_real_values`), and the one tolerance below which an eigenvalue
 or singular value is rounding error (:func:`numerical_rank`).
 
 Estimators declare ``_parameter_specs``: a dict mapping each parameter name
@@ -29,11 +30,13 @@ from rmtclean.exceptions import InvalidParameterError
 __all__ = [
     "BOOLEAN",
     "CALLABLE",
+    "OPEN_UNIT",
     "RANDOM_STATE",
     "InstanceOf",
     "Interval",
     "Options",
     "check_params",
+    "check_real_values",
     "check_sample_weight",
     "check_sizes",
     "check_spectrum",
@@ -137,6 +140,9 @@ RANDOM_STATE = _Special(
     ),
 )
 
+#: A level or probability strictly between 0 and 1.
+OPEN_UNIT = Interval(float, 0.0, 1.0, closed="neither")
+
 
 def _describe(forms) -> str:
     texts = ["None" if f is None else str(f) for f in forms]
@@ -145,14 +151,14 @@ def _describe(forms) -> str:
     return ", ".join(texts[:-1]) + " or " + texts[-1]
 
 
-def check_value(value, forms, name: str, owner: str) -> None:
-    """Raise InvalidParameterError unless one of ``forms`` accepts ``value``."""
+def check_value(value, forms, name: str, owner: str):
+    """``value``, or InvalidParameterError unless one of ``forms`` accepts it."""
     for form in forms:
         if form is None:
             if value is None:
-                return
+                return value
         elif form.accepts(value):
-            return
+            return value
     raise InvalidParameterError(
         f"The {name!r} parameter of {owner} must be {_describe(forms)}. "
         f"Got {value!r} instead."
@@ -261,6 +267,34 @@ def check_sizes(n_samples, n_features, owner: str) -> tuple[float, int]:
     return float(n_samples), int(n_features)
 
 
+def check_real_values(values, name: str, owner: str) -> np.ndarray:
+    """A float64 copy of array-like ``values``: real numbers, all finite."""
+    array = _real_array(values, name, owner)
+    _check_finite(array, name, owner)
+    return array
+
+
+def _real_array(values, name: str, owner: str) -> np.ndarray:
+    array = np.asarray(values)
+    if array.dtype == object or not (
+        np.issubdtype(array.dtype, np.integer)
+        or np.issubdtype(array.dtype, np.floating)
+    ):
+        raise TypeError(
+            f"The {name!r} input of {owner} must hold real numbers. "
+            f"Got an array of dtype {array.dtype} instead."
+        )
+    return np.array(array, dtype=np.float64)
+
+
+def _check_finite(values: np.ndarray, name: str, owner: str) -> None:
+    if not np.all(np.isfinite(values)):
+        raise ValueError(
+            f"The {name!r} input of {owner} must be finite. Got "
+            f"{np.count_nonzero(~np.isfinite(values))} NaN or infinite value(s)."
+        )
+
+
 def check_spectrum(
     eigenvalues,
     n_samples,
@@ -290,26 +324,13 @@ def check_spectrum(
         values, zeros when ``positive`` or an all-zero spectrum.
     """
     n_samples, n_features = check_sizes(n_samples, n_features, owner)
-    array = np.asarray(eigenvalues)
-    if array.dtype == object or not (
-        np.issubdtype(array.dtype, np.integer)
-        or np.issubdtype(array.dtype, np.floating)
-    ):
-        raise TypeError(
-            f"The 'eigenvalues' input of {owner} must hold real numbers. "
-            f"Got an array of dtype {array.dtype} instead."
-        )
-    if array.ndim != 1 or array.size == 0:
+    values = _real_array(eigenvalues, "eigenvalues", owner)
+    if values.ndim != 1 or values.size == 0:
         raise ValueError(
             f"The 'eigenvalues' input of {owner} must be a non-empty 1-D "
-            f"array. Got shape {array.shape} instead."
+            f"array. Got shape {values.shape} instead."
         )
-    values = np.array(array, dtype=np.float64)
-    if not np.all(np.isfinite(values)):
-        raise ValueError(
-            f"The 'eigenvalues' input of {owner} must be finite. Got "
-            f"{np.count_nonzero(~np.isfinite(values))} NaN or infinite value(s)."
-        )
+    _check_finite(values, "eigenvalues", owner)
     if values.size > n_features:
         raise ValueError(
             f"The 'eigenvalues' input of {owner} has {values.size} values, "

@@ -8,13 +8,12 @@ from numbers import Integral
 
 import numpy as np
 
-from rmtclean._validation import check_spectrum, numerical_rank
+from rmtclean._validation import OPEN_UNIT, check_spectrum, check_value, numerical_rank
 from rmtclean.exceptions import WeakEstimateWarning
 from rmtclean.rules._types import CleanedEigenvalues, ClipDetails
 from rmtclean.spectrum._bulk import _fit_bulk
 from rmtclean.spectrum._edge import (
     DEFAULT_CONSTANTS,
-    _check_alpha,
     _check_level,
     _detect_signal,
     _fitted_edge,
@@ -224,7 +223,7 @@ def eigen_clip(
             f"The 'n_keep' parameter of {function} must be None or a non-negative "
             f"int. Got {n_keep!r} instead."
         )
-    alpha = _check_alpha(alpha, function)
+    alpha = float(check_value(alpha, [OPEN_UNIT], "alpha", function))
     return _eigen_clip(
         values,
         n_samples,

@@ -17,13 +17,13 @@ import math
 import numpy as np
 
 from rmtclean._data import check_data
-from rmtclean._validation import Interval, check_value, numerical_rank
+from rmtclean._validation import Interval, Options, check_value, numerical_rank
 from rmtclean.rules._kernel import (
     HARD_EDGE_ZONE,
     KERNEL_FORMULAS,
     _kernel_rule,
 )
-from rmtclean.rules._linear import _check_choice, _linear_shrink
+from rmtclean.rules._linear import _linear_shrink
 from rmtclean.rules._types import CleanedEigenvalues
 
 __all__ = ["blend_linear", "crossvalidated_linear_weight", "plateau_phase"]
@@ -226,7 +226,7 @@ def crossvalidated_linear_weight(
     owner = "crossvalidated_linear_weight"
     X = check_data(X, "X", owner)
     check_value(n_folds, [Interval(int, 2, None)], "n_folds", owner)
-    _check_choice(formula, "formula", owner, KERNEL_FORMULAS)
+    check_value(formula, [Options(KERNEL_FORMULAS)], "formula", owner)
     return _crossvalidated_linear_weight(
         X, int(n_folds), assume_centered, bandwidth, formula, n_jobs, owner
     )

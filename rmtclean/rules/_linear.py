@@ -227,8 +227,7 @@ def _combine(S: np.ndarray, F: np.ndarray, delta: float) -> np.ndarray:
 
 # -- validation helpers ----------------------------------------------------
 def _check_choice(value, name: str, owner: str, choices) -> str:
-    check_value(value, [Options(choices)], name, owner)
-    return value
+    return check_value(value, [Options(choices)], name, owner)
 
 
 def _check_intensity(value, name: str, owner: str):
@@ -511,8 +510,8 @@ def shrinkage_intensity(
     True
     """
     owner = "shrinkage_intensity"
-    target = _check_choice(target, "target", owner, SHRINKAGE_TARGETS)
-    method = _check_choice(method, "method", owner, INTENSITY_METHODS)
+    target = check_value(target, [Options(SHRINKAGE_TARGETS)], "target", owner)
+    method = check_value(method, [Options(INTENSITY_METHODS)], "method", owner)
     _check_combination(target, method, owner)
     X = check_data(X, "X", owner)
     Xc = _centre(X, assume_centered)
@@ -548,7 +547,7 @@ def shrinkage_target(covariance, target: str = "identity") -> np.ndarray:
            [0.6667, 0.3333, 1.    ]])
     """
     owner = "shrinkage_target"
-    target = _check_choice(target, "target", owner, SHRINKAGE_TARGETS)
+    target = check_value(target, [Options(SHRINKAGE_TARGETS)], "target", owner)
     S = check_data(covariance, "covariance", owner, min_samples=1)
     if S.shape[0] != S.shape[1]:
         raise ValueError(f"covariance of {owner} must be square; got shape {S.shape}.")
@@ -606,7 +605,7 @@ def linear_shrink_covariance(
     ((5, 5), True)
     """
     owner = "linear_shrink_covariance"
-    target = _check_choice(target, "target", owner, SHRINKAGE_TARGETS)
+    target = check_value(target, [Options(SHRINKAGE_TARGETS)], "target", owner)
     intensity = _check_intensity(intensity, "intensity", owner)
     _check_combination(target, intensity, owner)
     X = check_data(X, "X", owner)

@@ -9,7 +9,13 @@ from numbers import Integral, Real
 
 import numpy as np
 
-from rmtclean._validation import check_spectrum, numerical_rank
+from rmtclean._validation import (
+    BOOLEAN,
+    OPEN_UNIT,
+    check_spectrum,
+    check_value,
+    numerical_rank,
+)
 from rmtclean.spectrum._bulk import _bulk_sizes
 
 __all__ = ["EdgeTest", "detect_signal"]
@@ -216,19 +222,6 @@ def _detect_signal(
     )
 
 
-def _check_alpha(alpha, function: str) -> float:
-    if (
-        isinstance(alpha, bool)
-        or not isinstance(alpha, Real)
-        or not 0.0 < float(alpha) < 1.0
-    ):
-        raise ValueError(
-            f"The 'alpha' parameter of {function} must be a float in the range "
-            f"(0, 1). Got {alpha!r} instead."
-        )
-    return float(alpha)
-
-
 def _check_edge_options(values, n_samples, max_signal, constants, s2, function):
     high = min(values.size - 1, math.ceil(n_samples) - 2)
     if max_signal is None:
@@ -258,15 +251,6 @@ def _check_edge_options(values, n_samples, max_signal, constants, s2, function):
             f"positive finite number. Got {s2!r} instead."
         )
     return int(max_signal), None if s2 is None else float(s2)
-
-
-def _check_bool(value, name: str, function: str) -> bool:
-    if not isinstance(value, (bool, np.bool_)):
-        raise ValueError(
-            f"The {name!r} parameter of {function} must be a bool. "
-            f"Got {value!r} instead."
-        )
-    return bool(value)
 
 
 def detect_signal(
@@ -418,7 +402,7 @@ def detect_signal(
     )
     # rounding-error zeros (repeated rows, collinear columns) are null space
     values = values[: numerical_rank(values, n_samples)]
-    alpha = _check_alpha(alpha, function)
+    alpha = float(check_value(alpha, [OPEN_UNIT], "alpha", function))
     max_signal, s2 = _check_edge_options(
         values, n_samples, max_signal, constants, noise_variance, function
     )
@@ -427,7 +411,7 @@ def detect_signal(
             f"The eigenvalues given to {function} vanish beyond the "
             f"{max_signal} largest: the noise variance cannot be estimated."
         )
-    adjust = _check_bool(adjust, "adjust", function)
+    adjust = bool(check_value(adjust, [BOOLEAN], "adjust", function))
     edge = _check_bulk_edge(bulk_edge, function)
     if edge == "fit":
         edge = _fitted_edge(values, n_samples, n_features, s2)

@@ -8,12 +8,16 @@ from typing import NamedTuple
 
 import numpy as np
 
-from rmtclean._validation import check_spectrum, numerical_rank
+from rmtclean._validation import (
+    BOOLEAN,
+    OPEN_UNIT,
+    check_spectrum,
+    check_value,
+    numerical_rank,
+)
 from rmtclean.spectrum._bulk import _fit_bulk
 from rmtclean.spectrum._edge import (
     DEFAULT_CONSTANTS,
-    _check_alpha,
-    _check_bool,
     _check_edge_options,
     _detect_signal,
 )
@@ -313,8 +317,8 @@ def spectrum_report(
     all_values, n, n_features = check_spectrum(
         eigenvalues, n_samples, n_features, function
     )
-    alpha = _check_alpha(alpha, function)
-    fix_ratio = _check_bool(fix_ratio, "fix_ratio", function)
+    alpha = float(check_value(alpha, [OPEN_UNIT], "alpha", function))
+    fix_ratio = bool(check_value(fix_ratio, [BOOLEAN], "fix_ratio", function))
     # rounding-error zeros (repeated rows, collinear columns) are null space
     values = all_values[: numerical_rank(all_values, n)]
     if values.size < 3 or math.ceil(n) < 3:

@@ -17,6 +17,8 @@ from numbers import Real
 
 import numpy as np
 
+from rmtclean._validation import check_real_values
+
 __all__ = [
     "SpikeInversion",
     "critical_spike",
@@ -44,29 +46,10 @@ def _check_positive_scalar(
     return float(value)
 
 
-def _check_values(values, name: str, function: str) -> np.ndarray:
-    array = np.asarray(values)
-    if array.dtype == object or not (
-        np.issubdtype(array.dtype, np.integer)
-        or np.issubdtype(array.dtype, np.floating)
-    ):
-        raise TypeError(
-            f"The '{name}' input of {function} must hold real numbers. "
-            f"Got an array of dtype {array.dtype} instead."
-        )
-    array = array.astype(np.float64, copy=False)
-    if not np.all(np.isfinite(array)):
-        raise ValueError(
-            f"The '{name}' input of {function} must be finite. "
-            f"Got {np.count_nonzero(~np.isfinite(array))} NaN or infinite value(s)."
-        )
-    return array
-
-
 def _check_inputs(values, value_name, ratio, noise_variance, function):
     """Validated (values as float array, q, s2) of a public function."""
     return (
-        _check_values(values, value_name, function),
+        check_real_values(values, value_name, function),
         _check_positive_scalar(ratio, "ratio", function),
         _check_positive_scalar(noise_variance, "noise_variance", function),
     )
