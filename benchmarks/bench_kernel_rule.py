@@ -12,7 +12,11 @@ Measures, in one run:
    sums of Bun, Allez, Bouchaud & Potters 2016), numba against numpy;
 4. the numba compile cost: a fresh ``python -c`` process to the first result,
    run twice with an empty cache directory (the first compiles, the second
-   must load the cache), against the same process without the call.
+   must load the cache), against the same process without the call;
+5. one thread against all of numba's threads on small spectra (100 to 3200
+   eigenvalues), interleaved: the default ``n_jobs=None`` runs the sums on
+   one thread below ``rmtclean._kernels.SERIAL_PAIRS`` pairs, since waking
+   the other threads costs more than the work there on a busy machine.
 
 Example::
 
@@ -33,6 +37,7 @@ import numba
 import numpy as np
 from threadpoolctl import threadpool_info
 
+from rmtclean import _kernels
 from rmtclean.laws import MarchenkoPastur
 from rmtclean.rules import kernel_shrink, stieltjes_shrink
 
@@ -199,6 +204,34 @@ def main() -> None:
         f"import only {baseline:.2f} s; first call, compiling {cold:.2f} s "
         f"(+{cold - baseline:.2f} s); second process, cached {warm:.2f} s "
         f"(+{warm - baseline:.2f} s); goal < 1 s extra"
+    )
+
+    # 5. one thread or all of them on small spectra (the SERIAL_PAIRS cut)
+    print(
+        f"\n[5] density/Hilbert sums, one thread vs {numba.config.NUMBA_NUM_THREADS}:"
+    )
+    print("    eigenvalues | one thread ms | all threads ms | all / one")
+    for m in (100, 400, 800, 1600, 3200):
+        small = spectrum(m, ratio)
+        h = 0.2 * small
+        runs: dict = {1: [], -1: []}
+        for n_jobs in runs:  # warm-up
+            with _kernels.numba_threads(n_jobs):
+                _kernels.epanechnikov_density_hilbert(small, small, h)
+        for _ in range(max(args.repeats, 15)):
+            for n_jobs in runs:
+                with _kernels.numba_threads(n_jobs):
+                    start = time.perf_counter()
+                    _kernels.epanechnikov_density_hilbert(small, small, h)
+                    runs[n_jobs].append(time.perf_counter() - start)
+        one, all_ = np.median(runs[1]), np.median(runs[-1])
+        print(
+            f"    {m:11d} | {1e3 * one:13.2f} | {1e3 * all_:14.2f} | {all_ / one:.2f}"
+        )
+    print(
+        f"    serial below {_kernels.SERIAL_PAIRS:,} pairs "
+        f"({int(_kernels.SERIAL_PAIRS**0.5)} eigenvalues); load average "
+        f"{os.getloadavg()}"
     )
 
 

@@ -452,13 +452,23 @@ KERNELS = {
 }
 
 
+#: Below this many pairs (about 1000 eigenvalues) a kernel called with the
+#: default ``n_jobs=None`` runs on one thread. On a busy 2-core machine (load
+#: average 4.5) waking numba's other thread cost 2-60 ms per call against
+#: 0.3 ms (100 eigenvalues), 1.6 ms (400) and 13 ms (800) of work on one
+#: thread; idle, two threads save at most 0.02, 0.4 and 1.3 ms there
+#: (``benchmarks/bench_kernel_rule.py``, part 5).
+SERIAL_PAIRS = 1_000_000
+
+
 @contextlib.contextmanager
-def numba_threads(n_jobs: int | None) -> Iterator[int]:
+def numba_threads(n_jobs: int | None, pairs: int | None = None) -> Iterator[int]:
     """Run the enclosed kernels on ``n_jobs`` numba threads.
 
-    ``None`` keeps the current setting, ``-1`` uses all of numba's threads,
-    a positive value is capped at ``numba.config.NUMBA_NUM_THREADS``. The
-    previous thread count is restored on exit, also after an exception.
+    ``None`` keeps the current setting (one thread when ``pairs``, the size
+    of the work, is below :data:`SERIAL_PAIRS`), ``-1`` uses all of numba's
+    threads, a positive value is capped at ``numba.config.NUMBA_NUM_THREADS``.
+    The previous thread count is restored on exit, also after an exception.
 
     Yields
     ------
@@ -468,7 +478,7 @@ def numba_threads(n_jobs: int | None) -> Iterator[int]:
     previous = numba.get_num_threads()
     available = numba.config.NUMBA_NUM_THREADS
     if n_jobs is None:
-        wanted = previous
+        wanted = 1 if pairs is not None and pairs < SERIAL_PAIRS else previous
     elif n_jobs == -1:
         wanted = available
     elif n_jobs >= 1:

@@ -205,6 +205,14 @@ def test_numba_threads_restores_the_previous_count():
         assert used == numba.config.NUMBA_NUM_THREADS
     with _kernels.numba_threads(None) as used:
         assert used == before
+    # Default n_jobs on small work: one thread; explicit n_jobs is obeyed.
+    with _kernels.numba_threads(None, _kernels.SERIAL_PAIRS - 1) as used:
+        assert used == 1 == numba.get_num_threads()
+    with _kernels.numba_threads(None, _kernels.SERIAL_PAIRS) as used:
+        assert used == before
+    with _kernels.numba_threads(-1, 10) as used:
+        assert used == numba.config.NUMBA_NUM_THREADS
+    assert numba.get_num_threads() == before
 
 
 def test_numba_threads_rejects_bad_values():

@@ -93,7 +93,7 @@ def _density_hilbert(x, centres_desc, h, engine="numba", n_jobs=None):
     bandwidths = h * centres
     if engine == "numpy" or x.size * centres.size <= _NUMPY_SMALL_PAIRS:
         return _density_hilbert_numpy(x, centres, bandwidths)
-    with _kernels.numba_threads(n_jobs):
+    with _kernels.numba_threads(n_jobs, x.size * centres.size):
         return _kernels.epanechnikov_density_hilbert(x, centres, bandwidths)
 
 

@@ -53,7 +53,7 @@ def _resolvent(vals, widths, n_features, engine="numba", n_jobs=None):
     if engine == "numpy":
         re, im = _resolvent_numpy(vals, widths)
     else:
-        with _kernels.numba_threads(n_jobs):
+        with _kernels.numba_threads(n_jobs, m * m):
             if uniform:  # the published one-eta sum
                 re, im = _kernels.resolvent_sum(vals, float(widths[0]))
             else:
