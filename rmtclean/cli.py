@@ -276,9 +276,7 @@ def _cmd_analyze(args) -> int:
             f"Spectrum of {args.data}: {frame.shape[0]} observations of "
             f"{frame.shape[1]} variables\n"
         )
-        print(report)
-        print()
-        print(CAUTION)
+        print(report)  # the report closes with the caution
     return 0
 
 

@@ -17,16 +17,11 @@ from sklearn.base import clone
 
 from rmtclean.bench.registry import ORACLE, SAMPLE, available_cleaners
 from rmtclean.metrics import TERMS, frobenius_loss, oracle_covariance
+from rmtclean.spectrum._report import CAUTION
 from rmtclean.synthetic import make_design
 
 __all__ = ["DemoResult", "run_demo", "CAUTION"]
 
-#: Printed with every report.
-CAUTION = (
-    "Caution: these are statistical estimates and carry estimation risk. "
-    "They are not investment or medical advice; defer to your own licensed "
-    "professionals and your firm's risk rules."
-)
 
 TRADING_DAYS = 252
 

@@ -47,6 +47,14 @@ def test_analyze_json_count_and_warnings(long_panel, capsys, standardize):
     assert code == 0
     assert "n_signal" in out and f"{report.n_signal} (level 0.05)" in out
     assert all(f"warning: {w}" in out for w in report.warnings)
+    # one caution, the whole of it, at the end
+    assert out.count("Caution") == 1
+    assert out.rstrip().endswith("your firm's risk rules.")
+    # a tested eigenvalue that the Tracy-Widom test rejects but that stays
+    # under the threshold is labelled with the reason it is not counted
+    k = report.n_signal
+    if k < report.p_values.size and report.p_values[k] < report.alpha:
+        assert "(below threshold)" in out
 
 
 @pytest.mark.parametrize("entry", CLEANERS, ids=lambda e: e.short)

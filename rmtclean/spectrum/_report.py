@@ -26,9 +26,11 @@ from rmtclean.spectrum._spikes import _invert_spikes
 
 __all__ = ["SpectrumReport", "analyze_spectrum", "fit_warning_level", "spectrum_report"]
 
+#: Closes every printed report (and the CLI's outputs, ``rmtclean.demo``).
 CAUTION = (
-    "Caution: these are statistical estimates from one sample; they carry "
-    "estimation risk."
+    "Caution: these are statistical estimates and carry estimation risk. "
+    "They are not investment or medical advice; defer to your own licensed "
+    "professionals and your firm's risk rules."
 )
 
 
@@ -176,7 +178,7 @@ class SpectrumReport:
                 spike = f"{self.spike_strengths[rank - 1]:12.6g}"
                 overlap = f"{self.overlaps[rank - 1]:8.4f}"
             elif p < self.alpha:  # rejected, but not above the threshold
-                spike, overlap = f"{'(at edge)':>12}", f"{'':>8}"
+                spike, overlap = "(below threshold)", ""
             else:
                 spike, overlap = f"{'(noise)':>12}", f"{'':>8}"
             lines.append(f"  {rank:>4}  {value:12.6g}  {p:10.3g}  {spike}  {overlap}")
