@@ -14,9 +14,9 @@ import warnings
 import numpy as np
 
 from rmtclean import _kernels
-from rmtclean._validation import Interval, check_spectrum, check_value
+from rmtclean._validation import Interval, Options, check_spectrum, check_value
 from rmtclean.exceptions import WeakEstimateWarning
-from rmtclean.rules._linear import _check_choice, _linear_shrink
+from rmtclean.rules._linear import _linear_shrink
 from rmtclean.rules._types import (
     CleanedEigenvalues,
     KernelDetails,
@@ -273,11 +273,6 @@ def _kernel_rule(
 _POSITIVE_FINITE = Interval(float, 0.0, math.inf, closed="neither")
 
 
-def _check_positive_real(value, name, owner):
-    check_value(value, [_POSITIVE_FINITE], name, owner)
-    return float(value)
-
-
 def kernel_shrink(
     eigenvalues,
     n_samples: float,
@@ -404,9 +399,11 @@ def kernel_shrink(
         eigenvalues, n_samples, n_features, owner, positive=True
     )
     if bandwidth is not None:
-        bandwidth = _check_positive_real(bandwidth, "bandwidth", owner)
-    _check_choice(formula, "formula", owner, KERNEL_FORMULAS)
-    _check_choice(engine, "engine", owner, KERNEL_ENGINES)
+        bandwidth = float(
+            check_value(bandwidth, [_POSITIVE_FINITE], "bandwidth", owner)
+        )
+    check_value(formula, [Options(KERNEL_FORMULAS)], "formula", owner)
+    check_value(engine, [Options(KERNEL_ENGINES)], "engine", owner)
     if n_features <= n and vals.size < n_features:
         raise ValueError(
             f"{owner}: with n_features <= n_samples all n_features = {n_features} "

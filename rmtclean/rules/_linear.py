@@ -226,10 +226,6 @@ def _combine(S: np.ndarray, F: np.ndarray, delta: float) -> np.ndarray:
 
 
 # -- validation helpers ----------------------------------------------------
-def _check_choice(value, name: str, owner: str, choices) -> str:
-    return check_value(value, [Options(choices)], name, owner)
-
-
 def _check_intensity(value, name: str, owner: str):
     """A method name or a real number in [0, 1] (returned as a float)."""
     check_value(

@@ -13,10 +13,9 @@ import numpy as np
 
 from rmtclean import _kernels
 from rmtclean._kernels import resolvent_sum_widths
-from rmtclean._validation import BOOLEAN, check_spectrum, check_value
+from rmtclean._validation import BOOLEAN, Options, check_spectrum, check_value
 from rmtclean.laws import MarchenkoPastur
 from rmtclean.rules._kernel import _POSITIVE_FINITE
-from rmtclean.rules._linear import _check_choice
 from rmtclean.rules._types import (
     CleanedEigenvalues,
     StieltjesDetails,
@@ -321,8 +320,8 @@ def stieltjes_shrink(
     check_value(eta, [_POSITIVE_FINITE, None], "eta", owner)
     check_value(regularize, [BOOLEAN], "regularize", owner)
     check_value(preserve_trace, [BOOLEAN], "preserve_trace", owner)
-    _check_choice(width, "width", owner, _WIDTHS)
-    _check_choice(engine, "engine", owner, STIELTJES_ENGINES)
+    check_value(width, [Options(_WIDTHS)], "width", owner)
+    check_value(engine, [Options(STIELTJES_ENGINES)], "engine", owner)
     return _stieltjes_shrink(
         vals,
         n,
