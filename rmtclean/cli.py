@@ -236,8 +236,15 @@ def _spectrum_report(frame, args):
     """``analyze_spectrum`` of the table, through --missing pairwise/em if asked."""
     from rmtclean.spectrum import analyze_spectrum, spectrum_report
 
+    weights = None
+    if args.half_life is not None:
+        from rmtclean.weights import exponential_weights
+
+        weights = exponential_weights(frame.shape[0], args.half_life)
     if args.missing in ("pairwise", "em") and frame.isna().to_numpy().any():
         from rmtclean.missing import missing_sample_spectrum
+
+        # check_missing_option has refused --half-life with pairwise/em.
 
         spectrum = missing_sample_spectrum(
             frame.to_numpy(), method=args.missing, standardize=args.standardize
@@ -249,7 +256,9 @@ def _spectrum_report(frame, args):
             standardized=spectrum.scale is not None,
             n_observations=frame.shape[0],
         )
-    return analyze_spectrum(frame.to_numpy(), standardize=args.standardize)
+    return analyze_spectrum(
+        frame.to_numpy(), standardize=args.standardize, sample_weight=weights
+    )
 
 
 def _cmd_analyze(args) -> int:
@@ -344,13 +353,7 @@ def _add_clean_arguments(clean) -> None:
         "else covariance)",
     )
     clean.add_argument("--report", metavar="FILE.png", help="where to save the figure")
-    clean.add_argument(
-        "--half-life",
-        type=positive_rows,
-        metavar="ROWS",
-        help="weight rows exponentially (last row newest); the effective sample "
-        "size replaces the number of rows",
-    )
+    _add_half_life_argument(clean)
     clean.add_argument(
         "--vol-half-life",
         type=positive_rows,
@@ -366,12 +369,23 @@ def _add_clean_arguments(clean) -> None:
     clean.set_defaults(func=_cmd_clean)
 
 
+def _add_half_life_argument(parser) -> None:
+    parser.add_argument(
+        "--half-life",
+        type=positive_rows,
+        metavar="ROWS",
+        help="weight rows exponentially (last row newest); the effective sample "
+        "size replaces the number of rows",
+    )
+
+
 def _add_analyze_arguments(analyze) -> None:
     _add_data_arguments(
         analyze,
         "analyse the correlation matrix (every column scaled to unit "
         "variance) instead of the covariance",
     )
+    _add_half_life_argument(analyze)
     analyze.add_argument(
         "--json", action="store_true", help="print the report as JSON for machines"
     )

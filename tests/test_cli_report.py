@@ -89,3 +89,33 @@ def test_clean_keeps_the_matrix_when_the_figure_fails(long_panel, tmp_path, caps
     assert out.stat().st_size > 0
     assert "warning: the figure" in err and "was not written" in err
     assert "figure:" not in stdout
+
+
+def test_analyze_half_life_weights_the_rows(long_panel, capsys, tmp_path):
+    # --half-life gives the rows w_t = 2^(-(T-1-t)/h) (RiskMetrics-style
+    # exponential weighting, J.P. Morgan 1996), as clean does: the JSON is
+    # the Python report of the same weights, and the degrees of freedom are
+    # sum(w) - 1 (frequency weights), far below the 13,118 rows.
+    from rmtclean.weights import exponential_weights
+
+    path, frame = long_panel
+    code, out, err = _run(
+        ["analyze", path, "--json", "--standardize", "--half-life", "126"], capsys
+    )
+    assert code == 0, err
+    payload = json.loads(out)
+    w = exponential_weights(frame.shape[0], 126.0)
+    report = analyze_spectrum(frame.to_numpy(), standardize=True, sample_weight=w)
+    assert payload["n_signal"] == report.n_signal
+    assert payload["degrees_of_freedom"] == pytest.approx(w.sum() - 1.0, rel=1e-12)
+    assert payload["noise_variance"] == pytest.approx(report.noise_variance, rel=1e-12)
+    # the pairwise/EM pre-steps take no row weights: one clear line, exit 1
+    holes = frame.iloc[:300].copy()
+    holes.iloc[3, 2] = np.nan
+    gappy = tmp_path / "gappy.csv"
+    holes.to_csv(gappy)
+    code, out, err = _run(
+        ["analyze", gappy, "--missing", "em", "--half-life", "20"], capsys
+    )
+    assert code != 0
+    assert "--half-life" in err and "--missing drop" in err
