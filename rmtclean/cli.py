@@ -215,7 +215,11 @@ def _cmd_clean(args) -> int:
             warn(args, f"the figure {args.report} was not written: {cli_language(exc)}")
             args.report = None
     T, N = frame.shape
-    signal = "not computed" if est.n_signal_ is None else str(est.n_signal_)
+    signal = (
+        "not counted (fewer than 3 degrees of freedom or eigenvalues: no bulk to fit)"
+        if est.n_signal_ is None
+        else str(est.n_signal_)
+    )
     where = "standard output" if target == "-" else target
     lines = [
         f"{args.method} on {args.data}: {T} observations of {N} variables",

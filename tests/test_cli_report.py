@@ -119,3 +119,15 @@ def test_analyze_half_life_weights_the_rows(long_panel, capsys, tmp_path):
     )
     assert code != 0
     assert "--half-life" in err and "--missing drop" in err
+
+
+def test_clean_says_why_no_signal_count(tmp_path, capsys):
+    # Three rows leave 2 degrees of freedom: no bulk to fit, so no count;
+    # the summary says why instead of a bare "not computed".
+    data = np.random.default_rng(0).standard_normal((3, 4))
+    path = tmp_path / "three_rows.csv"
+    pd.DataFrame(data, columns=list("abcd")).to_csv(path, index=False)
+    code, out, err = _run(["clean", path, "--out", tmp_path / "c.csv"], capsys)
+    assert code == 0, err
+    said = "signal eigenvalues: not counted (fewer than 3 degrees of freedom"
+    assert said in err + out
