@@ -260,9 +260,23 @@ def _spectrum_report(frame, args):
             standardized=spectrum.scale is not None,
             n_observations=frame.shape[0],
         )
-    return analyze_spectrum(
-        frame.to_numpy(), standardize=args.standardize, sample_weight=weights
-    )
+    X, standardize = frame.to_numpy(), args.standardize
+    if args.vol_half_life is not None:
+        X, standardize = _devolatilised(X, args.vol_half_life, weights), True
+    return analyze_spectrum(X, standardize=standardize, sample_weight=weights)
+
+
+def _devolatilised(X, half_life, weights):
+    """The demeaned rows over their causal EWMA volatility, as the estimators'
+    ``vol_half_life`` cleans them (their correlation is analysed)."""
+    import numpy as np
+
+    from rmtclean.volatility import ewma_volatility
+
+    X = np.asarray(X, dtype=np.float64)
+    location = np.average(X, axis=0, weights=weights)
+    vol = ewma_volatility(X, half_life, location=location, owner="--vol-half-life")
+    return vol.scaled(X - location)
 
 
 def _cmd_analyze(args) -> int:
@@ -390,6 +404,14 @@ def _add_analyze_arguments(analyze) -> None:
         "variance) instead of the covariance",
     )
     _add_half_life_argument(analyze)
+    analyze.add_argument(
+        "--vol-half-life",
+        type=positive_rows,
+        metavar="ROWS",
+        help="devolatilise each column by its causal EWMA volatility with this "
+        "half-life (rows in time order) and analyse the correlation of the "
+        "devolatilised series, the spectrum clean --vol-half-life cleans",
+    )
     analyze.add_argument(
         "--json", action="store_true", help="print the report as JSON for machines"
     )

@@ -131,3 +131,22 @@ def test_clean_says_why_no_signal_count(tmp_path, capsys):
     assert code == 0, err
     said = "signal eigenvalues: not counted (fewer than 3 degrees of freedom"
     assert said in err + out
+
+
+def test_analyze_vol_half_life_is_the_spectrum_clean_cleans(long_panel, capsys):
+    # --vol-half-life analyses the correlation of the series over their causal
+    # EWMA volatility (RiskMetrics 1996 style): the spectrum and the count
+    # are those of an estimator fitted with the same vol_half_life.
+    from rmtclean.estimators import KernelShrink
+
+    path, frame = long_panel
+    code, out, err = _run(["analyze", path, "--json", "--vol-half-life", "42"], capsys)
+    assert code == 0, err
+    payload = json.loads(out)
+    est = KernelShrink(vol_half_life=42.0).fit(frame.to_numpy())
+    k = len(payload["eigenvalues"])
+    np.testing.assert_allclose(
+        payload["eigenvalues"], est.sample_eigenvalues_[:k], rtol=1e-10
+    )
+    assert payload["n_signal"] == est.n_signal_
+    assert payload["standardized"] is True
