@@ -20,6 +20,7 @@ from rmtclean import __version__
 from rmtclean._cli_input import (
     MIN_ROWS,
     check_missing_option,
+    devolatilised,
     load_returns,
     missing_values_error,
     positive_rows,
@@ -262,21 +263,8 @@ def _spectrum_report(frame, args):
         )
     X, standardize = frame.to_numpy(), args.standardize
     if args.vol_half_life is not None:
-        X, standardize = _devolatilised(X, args.vol_half_life, weights), True
+        X, standardize = devolatilised(X, args.vol_half_life, weights), True
     return analyze_spectrum(X, standardize=standardize, sample_weight=weights)
-
-
-def _devolatilised(X, half_life, weights):
-    """The demeaned rows over their causal EWMA volatility, as the estimators'
-    ``vol_half_life`` cleans them (their correlation is analysed)."""
-    import numpy as np
-
-    from rmtclean.volatility import ewma_volatility
-
-    X = np.asarray(X, dtype=np.float64)
-    location = np.average(X, axis=0, weights=weights)
-    vol = ewma_volatility(X, half_life, location=location, owner="--vol-half-life")
-    return vol.scaled(X - location)
 
 
 def _cmd_analyze(args) -> int:
