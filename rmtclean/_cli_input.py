@@ -14,7 +14,6 @@ from rmtclean._cli_messages import FLAGS, warn
 __all__ = [
     "MIN_ROWS",
     "check_missing_option",
-    "devolatilised",
     "load_returns",
     "missing_values_error",
     "positive_rows",
@@ -182,16 +181,3 @@ def _handle_missing(frame, args):
         f"{frame.shape[0]} rows with missing values ({where}).",
     )
     return kept
-
-
-def devolatilised(X, half_life, weights):
-    """The demeaned rows over their causal EWMA volatility, as the estimators'
-    ``vol_half_life`` cleans them (their correlation is analysed)."""
-    import numpy as np
-
-    from rmtclean.volatility import ewma_volatility
-
-    X = np.asarray(X, dtype=np.float64)
-    location = np.average(X, axis=0, weights=weights)
-    vol = ewma_volatility(X, half_life, location=location, owner="--vol-half-life")
-    return vol.scaled(X - location)

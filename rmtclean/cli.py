@@ -20,7 +20,6 @@ from rmtclean import __version__
 from rmtclean._cli_input import (
     MIN_ROWS,
     check_missing_option,
-    devolatilised,
     load_returns,
     missing_values_error,
     positive_rows,
@@ -250,7 +249,6 @@ def _spectrum_report(frame, args):
         from rmtclean.missing import missing_sample_spectrum
 
         # check_missing_option has refused --half-life with pairwise/em.
-
         spectrum = missing_sample_spectrum(
             frame.to_numpy(), method=args.missing, standardize=args.standardize
         )
@@ -263,7 +261,12 @@ def _spectrum_report(frame, args):
         )
     X, standardize = frame.to_numpy(), args.standardize
     if args.vol_half_life is not None:
-        X, standardize = devolatilised(X, args.vol_half_life, weights), True
+        from rmtclean.volatility import devolatilise
+
+        X, _, _ = devolatilise(
+            X, args.vol_half_life, sample_weight=weights, owner="--vol-half-life"
+        )
+        standardize = True
     return analyze_spectrum(X, standardize=standardize, sample_weight=weights)
 
 
@@ -360,14 +363,10 @@ def _add_clean_arguments(clean) -> None:
     )
     clean.add_argument("--report", metavar="FILE.png", help="where to save the figure")
     _add_half_life_argument(clean)
-    clean.add_argument(
-        "--vol-half-life",
-        type=positive_rows,
-        metavar="ROWS",
-        help="devolatilise each column by its causal EWMA volatility with this "
-        "half-life (rows in time order), clean the correlation and scale it by "
-        "the volatility forecast for the next row (daily returns: 11.2 is "
-        "RiskMetrics' lambda 0.94)",
+    _add_vol_half_life_argument(
+        clean,
+        "clean the correlation and scale it by the volatility forecast for the "
+        "next row",
     )
     clean.add_argument(
         "--seed", type=int, default=0, help="seed of randomised cleaners (default 0)"
@@ -385,6 +384,17 @@ def _add_half_life_argument(parser) -> None:
     )
 
 
+def _add_vol_half_life_argument(parser, then: str) -> None:
+    parser.add_argument(
+        "--vol-half-life",
+        type=positive_rows,
+        metavar="ROWS",
+        help="devolatilise each column by its causal EWMA volatility with this "
+        f"half-life (rows in time order), {then} (daily returns: 11.2 is "
+        "RiskMetrics' lambda 0.94)",
+    )
+
+
 def _add_analyze_arguments(analyze) -> None:
     _add_data_arguments(
         analyze,
@@ -392,13 +402,10 @@ def _add_analyze_arguments(analyze) -> None:
         "variance) instead of the covariance",
     )
     _add_half_life_argument(analyze)
-    analyze.add_argument(
-        "--vol-half-life",
-        type=positive_rows,
-        metavar="ROWS",
-        help="devolatilise each column by its causal EWMA volatility with this "
-        "half-life (rows in time order) and analyse the correlation of the "
-        "devolatilised series, the spectrum clean --vol-half-life cleans",
+    _add_vol_half_life_argument(
+        analyze,
+        "analyse the correlation of the devolatilised series (the spectrum "
+        "clean --vol-half-life cleans)",
     )
     analyze.add_argument(
         "--json", action="store_true", help="print the report as JSON for machines"

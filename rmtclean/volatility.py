@@ -19,7 +19,7 @@ import scipy.signal
 
 from rmtclean._validation import Interval, check_value
 
-__all__ = ["VOL_SEED_ROWS", "EwmaVolatility", "ewma_volatility"]
+__all__ = ["VOL_SEED_ROWS", "EwmaVolatility", "devolatilise", "ewma_volatility"]
 
 #: The EWMA recursion starts from the mean square of this many first rows
 #: (fewer when the data have fewer rows): about a trading month of days.
@@ -156,3 +156,64 @@ def ewma_volatility(
     volatility = np.sqrt(var) * unit
     forecast = np.sqrt(after[-1]) * unit
     return EwmaVolatility(volatility, forecast, m, decay)
+
+
+def devolatilise(
+    X,
+    half_life: float,
+    *,
+    sample_weight=None,
+    assume_centered: bool = False,
+    feature_names=None,
+    owner: str = "devolatilise",
+) -> tuple[np.ndarray, np.ndarray, EwmaVolatility]:
+    """The demeaned rows over their causal EWMA volatility.
+
+    What the estimators' ``vol_half_life`` cleans (the correlation of these
+    rows) and ``rmtclean analyze --vol-half-life`` analyses.
+
+    Parameters
+    ----------
+    X : array_like of shape (n_samples, n_features)
+        Finite data, oldest row first.
+    half_life : float
+        Half-life of the EWMA weights in rows (see :func:`ewma_volatility`).
+    sample_weight : array_like of shape (n_samples,), optional
+        Non-negative row weights of the column means.
+    assume_centered : bool, default=False
+        Take zero means instead of the (weighted) column means.
+    feature_names : sequence of str, optional
+        Column names for the error message.
+    owner : str, default="devolatilise"
+        The caller, named in error messages.
+
+    Returns
+    -------
+    scaled : ndarray of shape (n_samples, n_features)
+        ``(X - location) / volatility``.
+    location : ndarray of shape (n_features,)
+        The means subtracted.
+    volatility : EwmaVolatility
+        The volatilities and the forecast for the next row.
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from rmtclean.volatility import devolatilise
+    >>> X = np.random.default_rng(0).standard_normal((250, 3)) * [1.0, 2.0, 5.0]
+    >>> scaled, location, vol = devolatilise(X, 42.0)
+    >>> np.round(vol.forecast, 1)  # the columns' scales, forecast
+    array([0.9, 2. , 5. ])
+    >>> bool(np.all(np.abs(scaled.std(axis=0) - 1.0) < 0.15))
+    True
+    """
+    X = np.asarray(X, dtype=np.float64)
+    location = np.zeros(X.shape[1])
+    if not assume_centered:
+        total = X.shape[0] if sample_weight is None else np.sum(sample_weight)
+        if total > 0:
+            location = np.average(X, axis=0, weights=sample_weight)
+    vol = ewma_volatility(
+        X, half_life, location=location, feature_names=feature_names, owner=owner
+    )
+    return vol.scaled(X - location), location, vol

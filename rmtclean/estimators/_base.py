@@ -23,7 +23,7 @@ from rmtclean.distributed import dask_sample_spectrum, is_dask_array
 from rmtclean.exceptions import RankDeficientWarning, WeakEstimateWarning
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import DENSE_LIMIT, CleanedSpectrum, SampleSpectrum
-from rmtclean.volatility import ewma_volatility
+from rmtclean.volatility import devolatilise
 from rmtclean.weights import exponential_weights, kish_weights
 
 __all__ = [
@@ -250,21 +250,16 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         Returns the spectrum (location: the column means of ``X``; scale: the
         volatility forecast, which ``_store`` restores) and the forecast.
         """
-        X64 = np.asarray(X, dtype=np.float64)
-        location = np.zeros(X64.shape[1])
-        if not self.assume_centered:
-            total = X64.shape[0] if sample_weight is None else sample_weight.sum()
-            if total > 0:
-                location = np.average(X64, axis=0, weights=sample_weight)
-        vol = ewma_volatility(
-            X64,
+        scaled, location, vol = devolatilise(
+            X,
             self.vol_half_life,
-            location=location,
+            sample_weight=sample_weight,
+            assume_centered=self.assume_centered,
             feature_names=getattr(self, "feature_names_in_", None),
             owner=f"{type(self).__name__}.fit",
         )
         spectrum = SampleSpectrum.from_data(
-            vol.scaled(X64 - location),
+            scaled,
             assume_centered=self.assume_centered,
             sample_weight=sample_weight,
             standardize=True,
