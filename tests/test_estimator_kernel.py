@@ -4,8 +4,8 @@ import numpy as np
 import pytest
 from sklearn.utils.estimator_checks import parametrize_with_checks
 
-from rmtclean.estimators import KernelShrink, StieltjesShrink
-from rmtclean.exceptions import InvalidParameterError
+from rmtclean.estimators import KernelShrink, StieltjesShrink, TylerShrink
+from rmtclean.exceptions import InvalidParameterError, WeakEstimateWarning
 from rmtclean.rules import kernel_shrink, stieltjes_shrink
 from rmtclean.spectrum import SampleSpectrum
 from rmtclean.synthetic import make_design
@@ -116,9 +116,6 @@ def test_fractional_dof_at_full_rank(rng):
     # degrees of freedom for two columns of full rank: p > n with no null
     # direction, so OAS's null value (Chen et al. 2010, eq. 23) is not needed;
     # the fit used to fail asking for it.
-    from rmtclean.estimators import TylerShrink
-    from rmtclean.exceptions import WeakEstimateWarning
-
     X = rng.standard_normal((3, 2))
     w = np.array([1.0, 0.7, 0.7])
     for klass in (KernelShrink, TylerShrink):
