@@ -264,7 +264,10 @@ def _spectrum_report(frame, args):
         from rmtclean.volatility import devolatilise
 
         X, _, _ = devolatilise(
-            X, args.vol_half_life, sample_weight=weights, owner="--vol-half-life"
+            X,
+            args.vol_half_life,
+            sample_weight=weights,
+            owner="the devolatilised series",
         )
         standardize = True
     return analyze_spectrum(X, standardize=standardize, sample_weight=weights)

@@ -147,3 +147,17 @@ def test_analyze_vol_half_life_is_the_spectrum_clean_cleans(long_panel, capsys):
     )
     assert payload["n_signal"] == est.n_signal_
     assert payload["standardized"] is True
+
+
+def test_analyze_vol_half_life_names_a_constant_column(tmp_path, capsys):
+    # A column constant over the volatility's seed rows cannot be scaled:
+    # one error line naming the flag once and the column by its name.
+    frame = industry_returns(last=30)
+    frame.iloc[:, 4] = 0.0
+    path = tmp_path / "flat.csv"
+    frame.to_csv(path)
+    code, out, err = _run(["analyze", path, "--vol-half-life", "10"], capsys)
+    assert code != 0
+    line = err.strip().splitlines()[-1]
+    assert line.count("--vol-half-life") == 1
+    assert repr(str(frame.columns[4])) in line
