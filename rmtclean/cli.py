@@ -239,11 +239,11 @@ def _cmd_clean(args) -> int:
 def _spectrum_report(frame, args):
     """``analyze_spectrum`` of the table, through --missing pairwise/em if asked."""
     from rmtclean.spectrum import analyze_spectrum, spectrum_report
+    from rmtclean.volatility import devolatilise
+    from rmtclean.weights import exponential_weights
 
     weights = None
     if args.half_life is not None:
-        from rmtclean.weights import exponential_weights
-
         weights = exponential_weights(frame.shape[0], args.half_life)
     if args.missing in ("pairwise", "em") and frame.isna().to_numpy().any():
         from rmtclean.missing import missing_sample_spectrum
@@ -261,13 +261,9 @@ def _spectrum_report(frame, args):
         )
     X, standardize = frame.to_numpy(), args.standardize
     if args.vol_half_life is not None:
-        from rmtclean.volatility import devolatilise
-
+        owner = "the devolatilised series"
         X, _, _ = devolatilise(
-            X,
-            args.vol_half_life,
-            sample_weight=weights,
-            owner="the devolatilised series",
+            X, args.vol_half_life, sample_weight=weights, owner=owner
         )
         standardize = True
     return analyze_spectrum(X, standardize=standardize, sample_weight=weights)
