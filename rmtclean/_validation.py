@@ -31,6 +31,7 @@ __all__ = [
     "BOOLEAN",
     "CALLABLE",
     "OPEN_UNIT",
+    "POSITIVE_FINITE",
     "RANDOM_STATE",
     "InstanceOf",
     "Interval",
@@ -142,6 +143,9 @@ RANDOM_STATE = _Special(
 
 #: A level or probability strictly between 0 and 1.
 OPEN_UNIT = Interval(float, 0.0, 1.0, closed="neither")
+
+#: A positive finite real number (a variance, a ratio, a width).
+POSITIVE_FINITE = Interval(float, 0.0, math.inf, closed="neither")
 
 
 def _describe(forms) -> str:

@@ -14,13 +14,14 @@ farmed out to joblib workers (``n_jobs``) or another executor.
 
 from __future__ import annotations
 
-import numbers
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass, field
 
 import numpy as np
 import scipy.linalg
 import scipy.optimize
+
+from rmtclean._validation import Interval, check_value
 
 __all__ = [
     "BASELINE",
@@ -302,19 +303,6 @@ class BacktestResult:
         return "\n".join(lines)
 
 
-def _check_int(value, name: str, low: int) -> int:
-    if isinstance(value, bool) or not isinstance(value, numbers.Integral):
-        raise TypeError(
-            f"The {name!r} parameter of backtest must be an int. Got {value!r} instead."
-        )
-    if value < low:
-        raise ValueError(
-            f"The {name!r} parameter of backtest must be at least {low}. "
-            f"Got {value!r} instead."
-        )
-    return int(value)
-
-
 def _as_cleaners(cleaners) -> dict:
     if isinstance(cleaners, Mapping):
         out = dict(cleaners)
@@ -445,8 +433,8 @@ def backtest(
     index = returns.index if isinstance(returns, pd.DataFrame) else None
     X = check_data(returns, "returns", "backtest")
     n_periods = X.shape[0]
-    window = _check_int(window, "window", 2)
-    step = _check_int(step, "step", 1)
+    window = int(check_value(window, [Interval(int, 2, None)], "window", "backtest"))
+    step = int(check_value(step, [Interval(int, 1, None)], "step", "backtest"))
     if window >= n_periods:
         raise ValueError(
             f"The 'window' parameter of backtest must be less than the number of "

@@ -19,12 +19,12 @@ estimate instead of a complete-data sample covariance; see
 from __future__ import annotations
 
 import math
-import numbers
 from dataclasses import dataclass
 
 import numpy as np
 import scipy.linalg
 
+from rmtclean._validation import POSITIVE_FINITE, Interval, check_value
 from rmtclean.spectrum import SampleSpectrum
 from rmtclean.spectrum._sample import column_scale
 
@@ -299,21 +299,8 @@ def em_covariance(
     (True, True)
     """
     func = "em_covariance"
-    if isinstance(max_iter, bool) or not isinstance(max_iter, numbers.Integral):
-        raise TypeError(
-            f"The 'max_iter' parameter of {func} must be an int. "
-            f"Got {max_iter!r} instead."
-        )
-    if max_iter < 1:
-        raise ValueError(
-            f"The 'max_iter' parameter of {func} must be at least 1. "
-            f"Got {max_iter!r} instead."
-        )
-    if not (isinstance(tol, numbers.Real) and tol > 0 and math.isfinite(tol)):
-        raise ValueError(
-            f"The 'tol' parameter of {func} must be a positive float. "
-            f"Got {tol!r} instead."
-        )
+    check_value(max_iter, [Interval(int, 1, None)], "max_iter", func)
+    check_value(tol, [POSITIVE_FINITE], "tol", func)
     X = _check_incomplete(X, func)
     mask = ~np.isnan(X)
     keep = mask.any(axis=1)

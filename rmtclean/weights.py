@@ -9,9 +9,9 @@ it is what rmtclean's estimators hand to the rules as the sample size.
 
 from __future__ import annotations
 
-import numbers
-
 import numpy as np
+
+from rmtclean._validation import POSITIVE_FINITE, Interval, check_value
 
 __all__ = ["effective_sample_size", "exponential_weights", "kish_weights"]
 
@@ -65,25 +65,8 @@ def exponential_weights(n_samples: int, half_life: float) -> np.ndarray:
     [0.25, 0.3536, 0.5, 0.7071, 1.0]
     """
     func = "exponential_weights"
-    if isinstance(n_samples, bool) or not isinstance(n_samples, numbers.Integral):
-        raise TypeError(
-            f"The 'n_samples' parameter of {func} must be an int. "
-            f"Got {n_samples!r} instead."
-        )
-    if n_samples < 1:
-        raise ValueError(
-            f"The 'n_samples' parameter of {func} must be at least 1. "
-            f"Got {n_samples!r} instead."
-        )
-    if (
-        isinstance(half_life, bool)
-        or not isinstance(half_life, numbers.Real)
-        or not (np.isfinite(half_life) and half_life > 0)
-    ):
-        raise ValueError(
-            f"The 'half_life' parameter of {func} must be a positive finite "
-            f"float. Got {half_life!r} instead."
-        )
+    check_value(n_samples, [Interval(int, 1, None)], "n_samples", func)
+    check_value(half_life, [POSITIVE_FINITE], "half_life", func)
     age = np.arange(n_samples - 1, -1, -1, dtype=np.float64)
     return np.exp2(-age / float(half_life))
 

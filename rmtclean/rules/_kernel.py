@@ -14,7 +14,12 @@ import warnings
 import numpy as np
 
 from rmtclean import _kernels
-from rmtclean._validation import Interval, Options, check_spectrum, check_value
+from rmtclean._validation import (
+    POSITIVE_FINITE,
+    Options,
+    check_spectrum,
+    check_value,
+)
 from rmtclean.exceptions import WeakEstimateWarning
 from rmtclean.rules._linear import _linear_shrink
 from rmtclean.rules._types import (
@@ -187,12 +192,16 @@ def _kernel_shrink(
     n_samples: float,
     n_features: int,
     *,
-    bandwidth: float | None = None,
-    formula: str = "stabilized",
-    engine: str = "numba",
-    n_jobs: int | None = None,
+    bandwidth: float | None,
+    formula: str,
+    engine: str,
+    n_jobs: int | None,
 ) -> CleanedEigenvalues:
-    """Core of :func:`kernel_shrink` (no validation; ``vals`` descending > 0)."""
+    """Core of :func:`kernel_shrink` (no validation; ``vals`` descending > 0).
+
+    Every option is passed: the defaults are :func:`kernel_shrink`'s and
+    :func:`_kernel_rule`'s.
+    """
     n, p = float(n_samples), int(n_features)
     h = n ** (-1.0 / 3.0) if bandwidth is None else float(bandwidth)
     # Work in units of the largest eigenvalue (the formulas are scale
@@ -268,9 +277,6 @@ def _kernel_rule(
         n_jobs=n_jobs,
     )
     return expand_zeros(out, k, p)
-
-
-_POSITIVE_FINITE = Interval(float, 0.0, math.inf, closed="neither")
 
 
 def kernel_shrink(
@@ -399,9 +405,7 @@ def kernel_shrink(
         eigenvalues, n_samples, n_features, owner, positive=True
     )
     if bandwidth is not None:
-        bandwidth = float(
-            check_value(bandwidth, [_POSITIVE_FINITE], "bandwidth", owner)
-        )
+        bandwidth = float(check_value(bandwidth, [POSITIVE_FINITE], "bandwidth", owner))
     check_value(formula, [Options(KERNEL_FORMULAS)], "formula", owner)
     check_value(engine, [Options(KERNEL_ENGINES)], "engine", owner)
     if n_features <= n and vals.size < n_features:

@@ -80,15 +80,17 @@ from types import MappingProxyType
 
 import numpy as np
 
-from rmtclean._validation import check_spectrum, numerical_rank
+from rmtclean._validation import (
+    POSITIVE_FINITE,
+    check_spectrum,
+    check_value,
+    numerical_rank,
+)
+from rmtclean.exceptions import InvalidParameterError
 from rmtclean.laws import MarchenkoPastur
 from rmtclean.rules._types import CleanedEigenvalues, SpikeDetails
 from rmtclean.spectrum._bulk import fit_bulk
-from rmtclean.spectrum._spikes import (
-    SpikeInversion,
-    _check_positive_scalar,
-    _invert_spikes,
-)
+from rmtclean.spectrum._spikes import SpikeInversion, _invert_spikes
 
 __all__ = ["SPIKE_SHRINKERS", "optimal_hard_threshold", "spike_shrink"]
 
@@ -398,12 +400,12 @@ def spike_shrink(
         s2 = _estimate_noise_variance(values, n_samples, n_features, method)
     else:
         method = "given"
-        s2 = _check_positive_scalar(
-            noise_variance,
-            "noise_variance",
-            name,
-            expected="None, 'median' or a positive finite real number",
-        )
+        if not POSITIVE_FINITE.accepts(noise_variance):
+            raise InvalidParameterError(
+                f"The 'noise_variance' parameter of {name} must be None, 'median' "
+                f"or a positive finite real number. Got {noise_variance!r} instead."
+            )
+        s2 = float(noise_variance)
     cleaned, n_signal, inversion = _spike_shrink(
         values, n_samples, n_features, SPIKE_SHRINKERS[loss], s2, count
     )
@@ -469,7 +471,8 @@ def optimal_hard_threshold(ratio: float, *, known_noise: bool = True) -> float:
     >>> round(optimal_hard_threshold(1.0, known_noise=False), 4)
     2.8584
     """
-    beta = _check_positive_scalar(ratio, "ratio", "optimal_hard_threshold")
+    owner = "optimal_hard_threshold"
+    beta = float(check_value(ratio, [POSITIVE_FINITE], "ratio", owner))
     beta = min(beta, 1.0 / beta)
     coefficient = np.sqrt(
         2.0 * (beta + 1.0)

@@ -13,9 +13,14 @@ import numpy as np
 
 from rmtclean import _kernels
 from rmtclean._kernels import resolvent_sum_widths
-from rmtclean._validation import BOOLEAN, Options, check_spectrum, check_value
+from rmtclean._validation import (
+    BOOLEAN,
+    POSITIVE_FINITE,
+    Options,
+    check_spectrum,
+    check_value,
+)
 from rmtclean.laws import MarchenkoPastur
-from rmtclean.rules._kernel import _POSITIVE_FINITE
 from rmtclean.rules._types import (
     CleanedEigenvalues,
     StieltjesDetails,
@@ -79,14 +84,18 @@ def _stieltjes_shrink(
     n_samples: float,
     n_features: int,
     *,
-    eta: float | None = None,
-    regularize: bool = True,
-    preserve_trace: bool = True,
-    width: str = "relative",
+    eta: float | None,
+    regularize: bool,
+    preserve_trace: bool,
+    width: str,
     engine: str = "numba",
     n_jobs: int | None = None,
 ) -> CleanedEigenvalues:
-    """Core of :func:`stieltjes_shrink` (no validation; ``vals`` descending > 0)."""
+    """Core of :func:`stieltjes_shrink` (no validation; ``vals`` descending > 0).
+
+    The options' defaults are :func:`stieltjes_shrink`'s and the
+    estimator's; the estimator takes no ``engine``.
+    """
     n, p, m = float(n_samples), int(n_features), vals.size
     q = p / n
     # Work in units of the mean eigenvalue tr(S)/N (the rule is scale
@@ -317,7 +326,7 @@ def stieltjes_shrink(
     vals, n, _ = check_spectrum(
         eigenvalues, n_samples, n_features, owner, positive=True
     )
-    check_value(eta, [_POSITIVE_FINITE, None], "eta", owner)
+    check_value(eta, [POSITIVE_FINITE, None], "eta", owner)
     check_value(regularize, [BOOLEAN], "regularize", owner)
     check_value(preserve_trace, [BOOLEAN], "preserve_trace", owner)
     check_value(width, [Options(_WIDTHS)], "width", owner)

@@ -5,13 +5,16 @@ from __future__ import annotations
 import functools
 import math
 from dataclasses import dataclass
-from numbers import Integral, Real
+from numbers import Real
 
 import numpy as np
 
 from rmtclean._validation import (
     BOOLEAN,
     OPEN_UNIT,
+    POSITIVE_FINITE,
+    Interval,
+    Options,
     check_spectrum,
     check_value,
     numerical_rank,
@@ -224,32 +227,11 @@ def _detect_signal(
 
 def _check_edge_options(values, n_samples, max_signal, constants, s2, function):
     high = min(values.size - 1, math.ceil(n_samples) - 2)
+    check_value(max_signal, [None, Interval(int, 0, high)], "max_signal", function)
+    check_value(constants, [Options(_CONSTANTS)], "constants", function)
+    check_value(s2, [None, POSITIVE_FINITE], "noise_variance", function)
     if max_signal is None:
         max_signal = max(high, 0)
-    elif (
-        isinstance(max_signal, bool)
-        or not isinstance(max_signal, Integral)
-        or not 0 <= max_signal <= high
-    ):
-        raise ValueError(
-            f"The 'max_signal' parameter of {function} must be None or an int in "
-            f"the range [0, {max(high, 0)}]. Got {max_signal!r} instead."
-        )
-    if constants not in _CONSTANTS:
-        raise ValueError(
-            f"The 'constants' parameter of {function} must be one of "
-            f"{_CONSTANTS}. Got {constants!r} instead."
-        )
-    if s2 is not None and (
-        isinstance(s2, bool)
-        or not isinstance(s2, Real)
-        or not math.isfinite(s2)
-        or s2 <= 0
-    ):
-        raise ValueError(
-            f"The 'noise_variance' parameter of {function} must be None or a "
-            f"positive finite number. Got {s2!r} instead."
-        )
     return int(max_signal), None if s2 is None else float(s2)
 
 

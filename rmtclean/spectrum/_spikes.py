@@ -13,11 +13,10 @@ vectorised pure functions.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from numbers import Real
 
 import numpy as np
 
-from rmtclean._validation import check_real_values
+from rmtclean._validation import POSITIVE_FINITE, check_real_values, check_value
 
 __all__ = [
     "SpikeInversion",
@@ -30,29 +29,17 @@ __all__ = [
 ]
 
 
-def _check_positive_scalar(
-    value, name: str, function: str, expected: str = "a positive finite real number"
-) -> float:
-    if (
-        isinstance(value, bool)
-        or not isinstance(value, Real)
-        or not np.isfinite(value)
-        or value <= 0
-    ):
-        raise ValueError(
-            f"The '{name}' parameter of {function} must be {expected}. "
-            f"Got {value!r} instead."
-        )
-    return float(value)
+def _check_model(ratio, noise_variance, function: str) -> tuple[float, float]:
+    """Validated ``(q, s2)``: both positive finite reals."""
+    q = check_value(ratio, [POSITIVE_FINITE], "ratio", function)
+    s2 = check_value(noise_variance, [POSITIVE_FINITE], "noise_variance", function)
+    return float(q), float(s2)
 
 
 def _check_inputs(values, value_name, ratio, noise_variance, function):
     """Validated (values as float array, q, s2) of a public function."""
-    return (
-        check_real_values(values, value_name, function),
-        _check_positive_scalar(ratio, "ratio", function),
-        _check_positive_scalar(noise_variance, "noise_variance", function),
-    )
+    values = check_real_values(values, value_name, function)
+    return (values, *_check_model(ratio, noise_variance, function))
 
 
 def _as_output(array: np.ndarray, like) -> float | np.ndarray:
@@ -112,8 +99,7 @@ def critical_spike(ratio: float, noise_variance: float = 1.0) -> float:
     >>> critical_spike(0.25)
     1.5
     """
-    q = _check_positive_scalar(ratio, "ratio", "critical_spike")
-    s2 = _check_positive_scalar(noise_variance, "noise_variance", "critical_spike")
+    q, s2 = _check_model(ratio, noise_variance, "critical_spike")
     return float(s2 * (1.0 + np.sqrt(q)))
 
 
