@@ -4,7 +4,8 @@ The one vocabulary for checking what a caller passes: parameter specs
 (:func:`check_value`, :func:`check_params`), frequency weights
 (:func:`check_sample_weight`), a sample spectrum with its sizes
 (:func:`check_spectrum`), arrays of real numbers
-(:func:`check_real_values`), and the one tolerance below which an eigenvalue
+(:func:`check_real_values`, or :func:`numeric_array` and
+:func:`check_finite` step by step), and the one tolerance below which an eigenvalue
 or singular value is rounding error (:func:`numerical_rank`).
 
 Estimators declare ``_parameter_specs``: a dict mapping each parameter name
@@ -36,12 +37,14 @@ __all__ = [
     "InstanceOf",
     "Interval",
     "Options",
+    "check_finite",
     "check_params",
     "check_real_values",
     "check_sample_weight",
     "check_sizes",
     "check_spectrum",
     "check_value",
+    "numeric_array",
     "numerical_rank",
     "rank_tolerance",
 ]
@@ -274,7 +277,7 @@ def check_sizes(n_samples, n_features, owner: str) -> tuple[float, int]:
 def check_real_values(values, name: str, owner: str) -> np.ndarray:
     """A float64 copy of array-like ``values``: real numbers, all finite."""
     array = _real_array(values, name, owner)
-    _check_finite(array, name, owner)
+    check_finite(array, name, owner)
     return array
 
 
@@ -291,7 +294,20 @@ def _real_array(values, name: str, owner: str) -> np.ndarray:
     return np.array(array, dtype=np.float64)
 
 
-def _check_finite(values: np.ndarray, name: str, owner: str) -> None:
+def numeric_array(values, name: str, owner: str) -> np.ndarray:
+    """``values`` as a float64 array (a copy only if needed) when their dtype
+    is numeric (boolean, integer or real); a TypeError otherwise."""
+    array = np.asarray(values)
+    if array.dtype.kind not in "biuf":
+        raise TypeError(
+            f"The {name!r} argument of {owner} must be a real numeric array. "
+            f"Got dtype {array.dtype} instead."
+        )
+    return array.astype(np.float64, copy=False)
+
+
+def check_finite(values: np.ndarray, name: str, owner: str) -> None:
+    """A ValueError counting the NaN and infinite entries of ``values``."""
     if not np.all(np.isfinite(values)):
         raise ValueError(
             f"The {name!r} input of {owner} must be finite. Got "
@@ -334,7 +350,7 @@ def check_spectrum(
             f"The 'eigenvalues' input of {owner} must be a non-empty 1-D "
             f"array. Got shape {values.shape} instead."
         )
-    _check_finite(values, "eigenvalues", owner)
+    check_finite(values, "eigenvalues", owner)
     if values.size > n_features:
         raise ValueError(
             f"The 'eigenvalues' input of {owner} has {values.size} values, "

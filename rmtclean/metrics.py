@@ -12,6 +12,7 @@ import numpy as np
 import scipy.linalg
 
 from rmtclean._data import check_data
+from rmtclean._validation import check_finite, numeric_array
 
 __all__ = [
     "TERMS",
@@ -43,22 +44,13 @@ TERMS = {
 
 # --------------------------------------------------------------------- checks
 def _check_square(a, name: str, func: str) -> np.ndarray:
-    a = np.asarray(a)
-    if a.dtype.kind not in "biuf":
-        raise TypeError(
-            f"The '{name}' argument of {func} must be a real numeric array. "
-            f"Got dtype {a.dtype} instead."
-        )
-    a = a.astype(np.float64, copy=False)
+    a = numeric_array(a, name, func)
     if a.ndim != 2 or a.shape[0] != a.shape[1] or a.shape[0] == 0:
         raise ValueError(
             f"The '{name}' argument of {func} must be a non-empty square 2-D "
             f"array. Got shape {a.shape} instead."
         )
-    if not np.all(np.isfinite(a)):
-        raise ValueError(
-            f"The '{name}' argument of {func} must contain only finite values."
-        )
+    check_finite(a, name, func)
     scale = max(np.max(np.abs(a)), np.finfo(np.float64).tiny)
     asym = np.max(np.abs(a - a.T))
     if asym > 1e-10 * scale:
@@ -491,10 +483,7 @@ def prial(losses_estimator, losses_sample, losses_oracle) -> float:
                 f"The '{name}' argument of prial must be a non-empty 1-D array "
                 f"of losses. Got shape {np.shape(value)} instead."
             )
-        if not np.all(np.isfinite(arr)):
-            raise ValueError(
-                f"The '{name}' argument of prial must contain only finite values."
-            )
+        check_finite(arr, name, "prial")
         arrays.append(arr)
     if len({arr.shape for arr in arrays}) != 1:
         raise ValueError(

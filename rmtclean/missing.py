@@ -24,7 +24,7 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.linalg
 
-from rmtclean._validation import POSITIVE_FINITE, Interval, check_value
+from rmtclean._validation import POSITIVE_FINITE, Interval, check_value, numeric_array
 from rmtclean.spectrum import SampleSpectrum
 from rmtclean.spectrum._sample import column_scale
 
@@ -91,13 +91,7 @@ class MissingCovariance:
 def _check_incomplete(X, func: str) -> np.ndarray:
     if hasattr(X, "to_numpy") and hasattr(X, "columns"):
         X = X.to_numpy(dtype=np.float64, na_value=np.nan)
-    X = np.asarray(X)
-    if X.dtype.kind not in "biuf":
-        raise TypeError(
-            f"The 'X' argument of {func} must be a real numeric array. "
-            f"Got dtype {X.dtype} instead."
-        )
-    X = X.astype(np.float64, copy=False)
+    X = numeric_array(X, "X", func)
     if X.ndim != 2 or X.shape[0] < 2 or X.shape[1] < 1:
         raise ValueError(
             f"The 'X' argument of {func} must be 2-D with at least 2 rows and "

@@ -182,10 +182,9 @@ def devolatilise(
         Non-negative row weights of the column means.
     assume_centered : bool, default=False
         Take zero means instead of the (weighted) column means.
-    feature_names : sequence of str, optional
-        Column names for the error message.
-    owner : str, default="devolatilise"
-        The caller, named in error messages.
+    feature_names, owner
+        As in :func:`ewma_volatility`; ``owner`` defaults to
+        ``"devolatilise"``.
 
     Returns
     -------

@@ -4,12 +4,15 @@ scikit-learn's own estimator checks (``parametrize_with_checks``), and the
 documented fitted attributes of the estimator contract.
 """
 
+import importlib
+
 import numpy as np
 import pytest
 from sklearn.utils.estimator_checks import parametrize_with_checks
 
 import rmtclean
 from rmtclean.estimators import CLEANERS, AutoShrink, SplitShrink
+from rmtclean.estimators._docs import references_doc
 
 ESTIMATOR_NAMES = [entry.name for entry in CLEANERS]
 
@@ -88,3 +91,21 @@ def test_public_names_are_sorted_and_importable():
     assert rmtclean.__all__ == sorted(rmtclean.__all__)
     for name in rmtclean.__all__:
         assert getattr(rmtclean, name) is not None
+
+
+@pytest.mark.parametrize(
+    "name, rule",
+    [
+        ("KernelShrink", "rmtclean.rules._combine.crossvalidated_linear_weight"),
+        ("LinearShrink", "rmtclean.rules.linear_shrink"),
+        ("SplitShrink", "rmtclean.rules.split_shrink"),
+        ("StieltjesShrink", "rmtclean.rules.stieltjes_shrink"),
+        ("TylerShrink", "rmtclean.rules._tyler.tyler_shape"),
+    ],
+)
+def test_estimators_cite_the_references_of_their_rules(name, rule):
+    module, _, function = rule.rpartition(".")
+    entries = references_doc(getattr(importlib.import_module(module), function))
+    assert entries.startswith("    .. [1] ")
+    doc = getattr(rmtclean.estimators, name).__doc__
+    assert "    References\n    ----------\n" + entries in doc

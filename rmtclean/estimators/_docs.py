@@ -4,7 +4,9 @@ Each cleaner's docstring is a template: ``%(common)s`` stands for the
 common Parameters entries, ``%(fitted)s`` and ``%(fitted_end)s`` for the
 Attributes entries every cleaner has, ``%(report_count)s`` for the
 ``n_signal_`` entry of a rule that uses no signal count;
-:func:`estimator_doc` fills them.
+:func:`estimator_doc` fills them. It also gives the cleaner the References
+of the rule it applies: their sources are cited once, in the rule's
+docstring.
 """
 
 from __future__ import annotations
@@ -17,6 +19,8 @@ __all__ = [
     "REPORT_COUNT_DOC",
     "common_params_doc",
     "estimator_doc",
+    "references_doc",
+    "with_references",
 ]
 
 _COMMON_DOC = """
@@ -124,11 +128,46 @@ def common_params_doc(exclude: tuple[str, ...] = ()) -> str:
     return "\n".join(kept)
 
 
-def estimator_doc(doc: str, exclude: tuple[str, ...] = ()) -> str:
+#: The entries of a numpydoc References section (up to the blank line).
+_REFERENCES = re.compile(r"\n    References\n    -+\n(.*?\n)\s*\n", re.DOTALL)
+
+
+def references_doc(function) -> str:
+    """The References entries of ``function``'s docstring ("" without any).
+
+    The entries keep their numbers and their indentation (a function's
+    docstring and a class template are both indented by four spaces).
+    """
+    match = _REFERENCES.search(function.__doc__ or "")
+    return "" if match is None else match.group(1)
+
+
+_REFERENCES_HEADER = "    References\n    ----------\n"
+
+
+def with_references(doc: str, function) -> str:
+    """``doc`` with the References entries of ``function``'s docstring first.
+
+    They go at the top of the References section of ``doc`` (whose own
+    entries are numbered after them), or make a References section before
+    the Examples when ``doc`` has none.
+    """
+    entries = references_doc(function)
+    if _REFERENCES_HEADER in doc:
+        return doc.replace(_REFERENCES_HEADER, _REFERENCES_HEADER + entries, 1)
+    examples = "    Examples\n    --------\n"
+    return doc.replace(examples, _REFERENCES_HEADER + entries + "\n" + examples, 1)
+
+
+def estimator_doc(doc: str, exclude: tuple[str, ...] = (), references=None) -> str:
     """A cleaner's docstring from its template: ``%(common)s`` becomes the
     common Parameters entries (less ``exclude``), ``%(fitted)s`` and
     ``%(fitted_end)s`` the common Attributes entries, ``%(report_count)s``
-    the ``n_signal_`` entry of a rule that uses no signal count."""
+    the ``n_signal_`` entry of a rule that uses no signal count; the
+    References entries of the rule function ``references`` come first in
+    the References section (:func:`with_references`)."""
+    if references is not None:
+        doc = with_references(doc, references)
     return (
         doc.replace("%(fitted)s\n", FITTED_DOC)
         .replace("%(fitted_end)s\n", FITTED_END_DOC)

@@ -17,6 +17,7 @@ from rmtclean.estimators._docs import estimator_doc
 from rmtclean.rules._combine import (
     _crossvalidated_linear_weight,
     blend_linear,
+    crossvalidated_linear_weight,
     plateau_phase,
 )
 from rmtclean.rules._kernel import KERNEL_FORMULAS, _kernel_rule
@@ -118,17 +119,6 @@ _DOC = r"""Analytical nonlinear shrinkage of the sample eigenvalues.
     estimate; the evidence (losses against sklearn's LedoitWolf, costs) is
     in ``benchmarks/near_singular_crossvalidated.md``.
 
-    References
-    ----------
-    .. [1] O. Ledoit and M. Wolf, "Analytical nonlinear shrinkage of
-       large-dimensional covariance matrices", Ann. Statist. 48(5),
-       3043-3065, 2020.
-    .. [2] O. Ledoit and M. Wolf, "A well-conditioned estimator for
-       large-dimensional covariance matrices", J. Multivariate Anal. 88(2),
-       365-411, 2004.
-    .. [3] C. Lam, "Nonparametric eigenvalue-regularized precision or
-       covariance matrix estimator", Ann. Statist. 44(3), 928-953, 2016.
-
     Examples
     --------
     >>> import numpy as np
@@ -155,7 +145,7 @@ _DOC = r"""Analytical nonlinear shrinkage of the sample eigenvalues.
 
 @estimator_dataclass
 class KernelShrink(TakesMissing, SpectralCovariance):
-    __doc__ = estimator_doc(_DOC)
+    __doc__ = estimator_doc(_DOC, references=crossvalidated_linear_weight)
 
     _parameter_specs: ClassVar[dict] = {
         "bandwidth": [None, Interval(float, 0.0, None, closed="neither")],

@@ -29,6 +29,7 @@ from rmtclean.rules._linear import (
     _intensity,
     _linear_shrink,
     _target,
+    linear_shrink,
 )
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import DENSE_LIMIT, CleanedSpectrum, SampleSpectrum
@@ -191,12 +192,6 @@ _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
 
     References
     ----------
-    .. [1] O. Ledoit and M. Wolf, "A well-conditioned estimator for
-       large-dimensional covariance matrices", J. Multivariate Anal. 88(2),
-       365-411, 2004.
-    .. [2] Y. Chen, A. Wiesel, Y. C. Eldar and A. O. Hero, "Shrinkage
-       algorithms for MMSE covariance estimation", IEEE Trans. Signal
-       Process. 58(10), 5016-5029, 2010.
     .. [3] O. Ledoit and M. Wolf, "Honey, I shrunk the sample covariance
        matrix", J. Portfolio Management 30(4), 110-119, 2004.
 
@@ -218,7 +213,7 @@ _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
 @estimator_dataclass
 class LinearShrink(SpectralCovariance):
     # The base's parameters, less ``missing``, which LinearShrink does not take.
-    __doc__ = estimator_doc(_DOC, exclude=("missing",))
+    __doc__ = estimator_doc(_DOC, exclude=("missing",), references=linear_shrink)
 
     _parameter_specs: ClassVar[dict] = {
         "target": [Options(SHRINKAGE_TARGETS)],

@@ -22,6 +22,7 @@ from rmtclean.rules._split import (
     _generator,
     _split_rule,
     _train_size_rows,
+    split_shrink,
 )
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import SampleSpectrum
@@ -89,14 +90,6 @@ _DOC = r"""Split-sample shrinkage: eigenvectors from one part, variances from th
     their own (weighted) means. ``sample_weight`` and ``half_life`` act as
     frequency weights on each part; splits are drawn over rows.
 
-    References
-    ----------
-    .. [1] K. M. Abadir, W. Distaso and F. Zikes, "Design-free estimation of
-       variance matrices", Journal of Econometrics, 2014.
-    .. [2] C. Lam, "Nonparametric eigenvalue-regularized precision or
-       covariance matrix estimator", Annals of Statistics 44(3), 928-953,
-       2016.
-
     Examples
     --------
     >>> import numpy as np
@@ -112,7 +105,7 @@ _DOC = r"""Split-sample shrinkage: eigenvectors from one part, variances from th
 
 @estimator_dataclass
 class SplitShrink(SpectralCovariance):
-    __doc__ = estimator_doc(_DOC, exclude=("missing",))
+    __doc__ = estimator_doc(_DOC, exclude=("missing",), references=split_shrink)
 
     _parameter_specs: ClassVar[dict] = {
         "train_size": [

@@ -11,7 +11,7 @@ from rmtclean.estimators._base import (
     estimator_dataclass,
 )
 from rmtclean.estimators._docs import estimator_doc
-from rmtclean.rules._stieltjes import _stieltjes_rule
+from rmtclean.rules._stieltjes import _stieltjes_rule, stieltjes_shrink
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import SampleSpectrum
 
@@ -23,7 +23,7 @@ _DOC = r"""Rotationally invariant estimator (RIE) of the covariance.
     transform of the sample spectrum at ``lambda_i - i eta``, with the
     small-eigenvalue regularisation of Bun, Bouchaud & Potters (2017) and an
     optional trace rescaling; when N exceeds the degrees of freedom the null
-    space gets Ledoit & Peche's value. See
+    space gets Ledoit & Peche's value [3]_. See
     :func:`rmtclean.rules.stieltjes_shrink`.
 
     Parameters
@@ -80,15 +80,6 @@ _DOC = r"""Rotationally invariant estimator (RIE) of the covariance.
     (collinear columns) are treated as null space: the rank replaces the
     degrees of freedom.
 
-    References
-    ----------
-    .. [1] J. Bun, R. Allez, J.-P. Bouchaud and M. Potters, "Rotational
-       invariant estimator for general noisy matrices", IEEE Trans. Inf.
-       Theory 62(12), 7475-7490, 2016.
-    .. [2] J. Bun, J.-P. Bouchaud and M. Potters, "Cleaning large
-       correlation matrices: tools from random matrix theory", Phys. Rep.
-       666, 1-109, 2017.
-
     Examples
     --------
     >>> import numpy as np
@@ -102,7 +93,7 @@ _DOC = r"""Rotationally invariant estimator (RIE) of the covariance.
 
 @estimator_dataclass
 class StieltjesShrink(TakesMissing, SpectralCovariance):
-    __doc__ = estimator_doc(_DOC)
+    __doc__ = estimator_doc(_DOC, references=stieltjes_shrink)
 
     _parameter_specs: ClassVar[dict] = {
         "eta": [None, Interval(float, 0.0, None, closed="neither")],

@@ -26,6 +26,7 @@ from rmtclean.rules._tyler import (
     _tyler_shape,
     robust_variance_level,
     spatial_signs,
+    tyler_shape,
 )
 from rmtclean.spectrum import CleanedSpectrum, SampleSpectrum
 
@@ -177,11 +178,6 @@ default="kernel"
 
     References
     ----------
-    .. [1] D. E. Tyler, "A distribution-free M-estimator of multivariate
-       scatter", Ann. Statist. 15(1), 234-251, 1987.
-    .. [2] Y. Chen, A. Wiesel and A. O. Hero, "Robust shrinkage estimation
-       of high-dimensional covariance matrices", IEEE Trans. Signal
-       Process. 59(9), 4097-4107, 2011.
     .. [3] E. Ollila, D. P. Palomar and F. Pascal, "Shrinking the
        eigenvalues of M-estimators of covariance matrix", IEEE Trans.
        Signal Process. 69, 256-269, 2021.
@@ -207,7 +203,7 @@ default="kernel"
 
 @estimator_dataclass
 class TylerShrink(SpectralCovariance):
-    __doc__ = estimator_doc(_DOC, exclude=("missing",))
+    __doc__ = estimator_doc(_DOC, exclude=("missing",), references=tyler_shape)
 
     _parameter_specs: ClassVar[dict] = {
         "rule": [Options(TYLER_RULES)],
