@@ -4,9 +4,10 @@ The one vocabulary for checking what a caller passes: parameter specs
 (:func:`check_value`, :func:`check_params`), frequency weights
 (:func:`check_sample_weight`), a sample spectrum with its sizes
 (:func:`check_spectrum`), arrays of real numbers
-(:func:`check_real_values`, or :func:`numeric_array` and
-:func:`check_finite` step by step), and the one tolerance below which an eigenvalue
-or singular value is rounding error (:func:`numerical_rank`).
+(:func:`check_real_values`; :func:`numeric_array` and :func:`check_finite`
+for arrays of other shapes or with missing values), and the one tolerance
+below which an eigenvalue or singular value is rounding error
+(:func:`numerical_rank`).
 
 Estimators declare ``_parameter_specs``: a dict mapping each parameter name
 to a list of accepted forms. A form is ``None`` (the value ``None``), an
@@ -300,7 +301,7 @@ def numeric_array(values, name: str, owner: str) -> np.ndarray:
     array = np.asarray(values)
     if array.dtype.kind not in "biuf":
         raise TypeError(
-            f"The {name!r} argument of {owner} must be a real numeric array. "
+            f"The {name!r} input of {owner} must be a real numeric array. "
             f"Got dtype {array.dtype} instead."
         )
     return array.astype(np.float64, copy=False)
