@@ -2,7 +2,8 @@
 
 Each cleaner's docstring is a template: ``%(common)s`` stands for the
 common Parameters entries, ``%(fitted)s`` and ``%(fitted_end)s`` for the
-Attributes entries every cleaner has, ``%(report_count)s`` for the
+Attributes entries every cleaner has (``%(stored)s`` for the first three
+of them alone), ``%(report_count)s`` for the
 ``n_signal_`` entry of a rule that uses no signal count;
 :func:`estimator_doc` fills them. It also gives the cleaner the References
 of the rule it applies: their sources are cited once, in the rule's
@@ -17,6 +18,7 @@ __all__ = [
     "FITTED_DOC",
     "FITTED_END_DOC",
     "REPORT_COUNT_DOC",
+    "STORED_DOC",
     "common_params_doc",
     "estimator_doc",
     "references_doc",
@@ -80,20 +82,27 @@ _COMMON_DOC = """
         a half-life of 11.2 rows.
 """
 
-#: The Attributes entries every cleaner's docstring starts with (the
-#: ``%(fitted)s`` line of its template).
-FITTED_DOC = """    covariance_ : ndarray of shape (n_features, n_features) or None
+#: The Attributes entries of the dense matrices and the location (the
+#: ``%(stored)s`` line of a template whose spectral entries are its own).
+STORED_DOC = """    covariance_ : ndarray of shape (n_features, n_features) or None
         The cleaned covariance (None when not stored densely).
     precision_ : ndarray of shape (n_features, n_features) or None
         Its inverse (when stored).
     location_ : ndarray of shape (n_features,)
         The column means (zeros when ``assume_centered``).
-    spectrum_ : CleanedSpectrum
+"""
+
+#: The Attributes entries every cleaner's docstring starts with (the
+#: ``%(fitted)s`` line of its template): :data:`STORED_DOC`, then the spectra.
+FITTED_DOC = (
+    STORED_DOC
+    + """    spectrum_ : CleanedSpectrum
         The cleaned covariance in spectral form.
     sample_eigenvalues_ : ndarray of shape (n_features,)
         Descending sample eigenvalues (of the correlation when
         ``standardize``), the null space's zeros last.
 """
+)
 
 #: The ``n_signal_`` entry of a cleaner whose rule uses no signal count (its
 #: ``%(report_count)s`` line): the count comes from ``_report_count``.
@@ -162,14 +171,16 @@ def with_references(doc: str, function) -> str:
 def estimator_doc(doc: str, exclude: tuple[str, ...] = (), references=None) -> str:
     """A cleaner's docstring from its template: ``%(common)s`` becomes the
     common Parameters entries (less ``exclude``), ``%(fitted)s`` and
-    ``%(fitted_end)s`` the common Attributes entries, ``%(report_count)s``
-    the ``n_signal_`` entry of a rule that uses no signal count; the
-    References entries of the rule function ``references`` come first in
-    the References section (:func:`with_references`)."""
+    ``%(fitted_end)s`` the common Attributes entries (``%(stored)s`` the
+    first three of them), ``%(report_count)s`` the ``n_signal_`` entry of a
+    rule that uses no signal count; the References entries of the rule
+    function ``references`` come first in the References section
+    (:func:`with_references`)."""
     if references is not None:
         doc = with_references(doc, references)
     return (
         doc.replace("%(fitted)s\n", FITTED_DOC)
+        .replace("%(stored)s\n", STORED_DOC)
         .replace("%(fitted_end)s\n", FITTED_END_DOC)
         .replace("%(report_count)s\n", REPORT_COUNT_DOC)
         .replace("%(common)s", common_params_doc(exclude).rstrip("\n"))

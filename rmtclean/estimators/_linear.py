@@ -115,12 +115,7 @@ _DOC = r"""Linear shrinkage ``(1 - delta) S + delta F`` towards a target.
     ----------
     shrinkage_ : float
         The intensity ``delta`` used.
-    covariance_ : ndarray of shape (n_features, n_features) or None
-        The shrunk covariance (None when not stored densely).
-    precision_ : ndarray of shape (n_features, n_features) or None
-        Its inverse (when stored).
-    location_ : ndarray of shape (n_features,)
-        The column means (zeros when ``assume_centered``).
+%(stored)s
     spectrum_ : CleanedSpectrum
         The shrunk covariance in spectral form (used by ``transform``,
         ``score`` and ``mahalanobis``); computed on first use after a
