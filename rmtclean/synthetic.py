@@ -16,7 +16,6 @@ from types import MappingProxyType
 
 import numpy as np
 import scipy.linalg
-import scipy.signal
 
 from rmtclean._validation import Interval, check_value
 
@@ -265,6 +264,8 @@ class Design:
         if phi != 0.0:
             gain = np.sqrt(1.0 - phi * phi)
             initial = ((1.0 - gain) * white[0])[None, :]
+            import scipy.signal  # the AR(1) filter only: slow to import
+
             white, _ = scipy.signal.lfilter(
                 [gain], [1.0, -phi], white, axis=0, zi=initial
             )

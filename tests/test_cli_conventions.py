@@ -69,6 +69,35 @@ def test_top_level_help_and_version_load_no_numerical_library():
     assert "clean" in result.stdout and "analyze" in result.stdout
 
 
+def test_bench_help_loads_neither_sklearn_nor_the_runner():
+    # The help lists the cleaners and the grid's defaults: the registry,
+    # the plan and numpy, not scikit-learn, matplotlib or the runner.
+    code = (
+        "import sys\nfrom rmtclean.cli import main\n"
+        "try:\n    main(['bench', '--help'])\nexcept SystemExit:\n    pass\n"
+        "heavy = ('sklearn', 'matplotlib', 'numba', 'rmtclean.bench.run')\n"
+        "print(sorted(m for m in heavy if m in sys.modules), file=sys.stderr)"
+    )
+    result = subprocess.run(
+        [sys.executable, "-c", code], capture_output=True, text=True, check=True
+    )
+    assert result.stderr.strip() == "[]"
+    assert "sk.LedoitWolf" in result.stdout and "--quick" in result.stdout
+
+
+def test_bench_names_resolve_lazily_to_their_modules():
+    import rmtclean.bench as bench
+    from rmtclean.bench import _sample, plan, registry, run
+
+    assert bench.SampleCovariance is _sample.SampleCovariance
+    assert bench.BenchConfig is plan.BenchConfig
+    assert bench.available_cleaners is registry.available_cleaners
+    assert bench.run_benchmark is run.run_benchmark
+    assert set(bench.__all__) <= set(dir(bench))
+    with pytest.raises(AttributeError, match="no attribute 'nothing'"):
+        bench.nothing  # noqa: B018
+
+
 def test_lazy_names_resolve_to_the_classes():
     from rmtclean.estimators._kernel import KernelShrink as direct
 

@@ -18,46 +18,47 @@ cells and draws), ``run`` (thread limits and the resumable runner),
 ``store`` (the JSON-lines results file), ``stats`` (means, standard errors,
 PRIAL) and ``report`` (markdown, CSV and figures). The ``rmtclean bench``
 command's arguments are parsed in :mod:`rmtclean.cli`.
+
+The names below are imported from their modules on first use, so listing
+the cleaners and the grid's defaults (``rmtclean bench --help``) loads
+neither scikit-learn nor the runner.
 """
 
-from rmtclean.bench.plan import (
-    METRICS,
-    BenchConfig,
-    draw,
-    n_samples_for,
-    plan_cells,
-)
-from rmtclean.bench.registry import (
-    GRAPHICAL_LASSO_MAX_FEATURES,
-    ORACLE,
-    SAMPLE,
-    CleanerSpec,
-    SampleCovariance,
-    available_cleaners,
-)
-from rmtclean.bench.report import format_markdown, shrinkage_curves, write_report
-from rmtclean.bench.run import BenchRun, limit_threads, run_benchmark
-from rmtclean.bench.stats import summarize
-from rmtclean.bench.store import load_results
+import importlib
 
-__all__ = [
-    "GRAPHICAL_LASSO_MAX_FEATURES",
-    "METRICS",
-    "ORACLE",
-    "SAMPLE",
-    "BenchConfig",
-    "BenchRun",
-    "CleanerSpec",
-    "SampleCovariance",
-    "available_cleaners",
-    "draw",
-    "format_markdown",
-    "limit_threads",
-    "load_results",
-    "n_samples_for",
-    "plan_cells",
-    "run_benchmark",
-    "shrinkage_curves",
-    "summarize",
-    "write_report",
-]
+#: Public name -> the module of the package that defines it.
+_HOMES = {
+    "METRICS": "plan",
+    "BenchConfig": "plan",
+    "draw": "plan",
+    "n_samples_for": "plan",
+    "plan_cells": "plan",
+    "GRAPHICAL_LASSO_MAX_FEATURES": "registry",
+    "ORACLE": "registry",
+    "SAMPLE": "registry",
+    "CleanerSpec": "registry",
+    "available_cleaners": "registry",
+    "SampleCovariance": "_sample",
+    "format_markdown": "report",
+    "shrinkage_curves": "report",
+    "write_report": "report",
+    "BenchRun": "run",
+    "limit_threads": "run",
+    "run_benchmark": "run",
+    "summarize": "stats",
+    "load_results": "store",
+}
+
+__all__ = sorted(_HOMES, key=lambda name: (not name.isupper(), name))
+
+
+def __getattr__(name: str):
+    if name not in _HOMES:
+        raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+    value = getattr(importlib.import_module(f"{__name__}.{_HOMES[name]}"), name)
+    globals()[name] = value
+    return value
+
+
+def __dir__() -> list[str]:
+    return sorted(set(globals()) | set(__all__))
