@@ -14,6 +14,7 @@ import warnings
 
 __all__ = ["FLAGS", "WarningLines", "cli_language", "warn"]
 
+
 # Python parameter -> the flag that sets it, for messages.
 FLAGS = {
     "half_life": "--half-life",

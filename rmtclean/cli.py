@@ -25,6 +25,7 @@ from rmtclean._cli_input import (
     positive_rows,
 )
 from rmtclean._cli_messages import FLAGS, WarningLines, cli_language, warn
+from rmtclean._cli_parse import CommandParser, count_at_least, csv_list
 
 __all__ = ["DEFAULT_METHOD", "MIN_ROWS", "build_parser", "main"]
 
@@ -53,33 +54,16 @@ def _cmd_demo(args) -> int:
     return 0
 
 
-def _count_at_least(low: int, why: str):
-    """argparse type: an integer of at least ``low`` (``why`` says the reason)."""
-
-    def parse(text: str) -> int:
-        try:
-            value = int(text)
-        except ValueError:
-            value = low - 1
-        if value < low:
-            raise argparse.ArgumentTypeError(
-                f"expected an integer of at least {low} ({why}), got {text!r}"
-            )
-        return value
-
-    return parse
-
-
 def _add_demo_arguments(demo) -> None:
     demo.add_argument(
         "--assets",
-        type=_count_at_least(10, "one per sector at least"),
+        type=count_at_least(10, "one per sector at least"),
         default=300,
         help="number of assets, at least 10 (default 300)",
     )
     demo.add_argument(
         "--days",
-        type=_count_at_least(5, "the spectrum report needs them"),
+        type=count_at_least(5, "the spectrum report needs them"),
         default=500,
         help="number of days, at least 5 (default 500)",
     )
@@ -413,18 +397,6 @@ def _add_analyze_arguments(analyze) -> None:
 
 
 # -- bench ---------------------------------------------------------------------
-def _csv_list(kind):
-    def parse(text: str):
-        try:
-            return [kind(item) for item in text.split(",") if item.strip()]
-        except ValueError:
-            raise argparse.ArgumentTypeError(
-                f"expected a comma-separated list of {kind.__name__}, got {text!r}"
-            ) from None
-
-    return parse
-
-
 def _add_bench_arguments(bench) -> None:
     from rmtclean.bench import BenchConfig, available_cleaners
     from rmtclean.synthetic import DESIGNS, DISTRIBUTIONS
@@ -437,18 +409,18 @@ def _add_bench_arguments(bench) -> None:
 
     bench.add_argument(
         "--designs",
-        type=_csv_list(str),
+        type=csv_list(str),
         help=f"comma-separated designs among {', '.join(DESIGNS)} (default: "
         f"{listed(default.designs)})",
     )
     bench.add_argument(
         "--sizes",
-        type=_csv_list(int),
+        type=csv_list(int),
         help=f"comma-separated N (default: {listed(default.sizes)})",
     )
     bench.add_argument(
         "--ratios",
-        type=_csv_list(float),
+        type=csv_list(float),
         help=f"comma-separated T/N (default: {listed(default.ratios)})",
     )
     bench.add_argument(
@@ -458,7 +430,7 @@ def _add_bench_arguments(bench) -> None:
     )
     bench.add_argument(
         "--cleaners",
-        type=_csv_list(str),
+        type=csv_list(str),
         help="comma-separated cleaners (default all; oracle and sample always run): "
         + ", ".join(available_cleaners()),
     )
@@ -654,11 +626,14 @@ def build_parser(command: str | None = "all") -> argparse.ArgumentParser:
     parser.add_argument(
         "--version", action="version", version=f"%(prog)s {__version__}"
     )
-    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    sub = parser.add_subparsers(
+        dest="command", metavar="COMMAND", parser_class=CommandParser
+    )
     for name, (keywords, add_arguments) in _COMMANDS.items():
         child = sub.add_parser(name, **keywords)
         if command in ("all", name):
             add_arguments(child)
+        child.set_defaults(flags=child.flags)
     return parser
 
 
@@ -676,10 +651,6 @@ def main(argv=None) -> int:
     if getattr(args, "func", None) is None:
         parser.print_help()
         return 2
-    chosen = parser._subparsers._group_actions[0].choices[args.command]
-    args.flags = {
-        a.dest: a.option_strings[0] for a in chosen._actions if a.option_strings
-    }
     with WarningLines(args):
         try:
             return int(args.func(args))
