@@ -123,10 +123,12 @@ def _estimator_report(est, frame, args):
     """
     from rmtclean.spectrum import spectrum_report
 
-    k = est.spectrum_.n_components
+    # All N sample eigenvalues: the report keeps the numerical rank. (The
+    # cleaned spectrum_ may hold fewer: EigenClip and SpikeShrink keep
+    # eigenvectors only where the cleaned value differs from the bulk's.)
     standardized = bool(args.standardize or est.scale_ is not None)
     return spectrum_report(
-        est.sample_eigenvalues_[:k],
+        est.sample_eigenvalues_,
         est.degrees_of_freedom_,
         frame.shape[1],
         standardized=standardized,

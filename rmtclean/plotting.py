@@ -15,6 +15,8 @@ from pathlib import Path
 
 import numpy as np
 
+from rmtclean._validation import numerical_rank, rank_tolerance
+
 __all__ = [
     "panel_grid",
     "plot_prial",
@@ -238,7 +240,8 @@ def plot_shrinkage(
         Axis scale of both axes. ``"auto"`` takes ``"log"`` when the positive
         sample eigenvalues span more than a factor 100 (a strong factor
         would otherwise squeeze the bulk into a corner); zero eigenvalues
-        (the null space when N > T) are then not drawn.
+        (the null space when N > T, and values at rounding-error level left
+        by repeated rows or collinear columns) are then not drawn.
 
     Returns
     -------
@@ -266,11 +269,15 @@ def plot_shrinkage(
     fig, ax = _single_axes(ax)
     sample = np.asarray(sample_eigenvalues, dtype=float).ravel()
     order = np.argsort(sample)
-    positive = sample[sample > 0]
     hi = float(np.max(sample)) if sample.size else 1.0
+    # rounding-error values (null space) would stretch a log axis to 1e-16
+    nonzero = sample > rank_tolerance(hi, sample.size)
+    positive = sample[nonzero]
     if scale == "auto":
         wide = positive.size > 1 and positive.max() > 100 * positive.min()
         scale = "log" if wide else "linear"
+    if scale == "log":
+        order = order[nonzero[order]]
     lo = float(positive.min()) if (scale == "log" and positive.size) else 0.0
     ax.plot([lo, hi], [lo, hi], color="0.6", ls="--", lw=1, label="no cleaning")
     names = list(cleaned)
@@ -291,7 +298,13 @@ def plot_shrinkage(
     if oracle is not None:
         oracle = np.asarray(oracle, dtype=float).ravel()
         ax.scatter(
-            sample, oracle, s=9, color="black", alpha=0.5, label="oracle", zorder=3
+            sample[order],
+            oracle[order],
+            s=9,
+            color="black",
+            alpha=0.5,
+            label="oracle",
+            zorder=3,
         )
     if scale == "log":
         ax.set_xscale("log")
@@ -335,7 +348,8 @@ def _draw_spectrum(
     if scale == "auto":
         spread = bulk.statistic > _fit_warning_level(bulk.n_used)
         scale = "log" if spread else "linear"
-    positive = values[values > 0]
+    # rounding-error values (null space) would stretch a log axis to 1e-16
+    positive = values[: numerical_rank(values, n_samples, n_features)]
     weight = 1.0 / (n_features - k)
     if scale == "log":
         unit, far = 1.0, np.empty(0)

