@@ -297,9 +297,10 @@ def plot_shrinkage(
         )
     if oracle is not None:
         oracle = np.asarray(oracle, dtype=float).ravel()
+        drawn = nonzero if scale == "log" else slice(None)
         ax.scatter(
-            sample[order],
-            oracle[order],
+            sample[drawn],
+            oracle[drawn],
             s=9,
             color="black",
             alpha=0.5,
