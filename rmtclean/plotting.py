@@ -145,7 +145,8 @@ def plot_prial(
     The oracle (100%) and the sample covariance (0%) are drawn as grey
     reference lines; error bars are one standard error. The vertical axis
     is clipped below at -50% so that one poor cleaner does not flatten the
-    others (its points below are drawn on the lower edge).
+    others: its points below are drawn on the lower edge as downward
+    triangles, each labelled with its value.
 
     Examples
     --------
@@ -177,6 +178,7 @@ def plot_prial(
     for ax, design in zip(axes, designs, strict=True):
         drows = [r for r in rows if r["design"] == design]
         ratios = sorted({r["ratio"] for r in drows})
+        stacked: dict[float, int] = {}  # labels of clipped points per T / N
         ax.axhline(100.0, color="0.45", lw=1, ls="--", label="oracle (100%)")
         ax.axhline(0.0, color="0.45", lw=1, ls=":", label="sample (0%)")
         for name in cleaners:
@@ -201,6 +203,20 @@ def plot_prial(
                 color=_colour(name, cleaners),
                 label=name,
             )
+            for xi, yi in zip(x[y < floor], y[y < floor], strict=True):
+                level = stacked.get(float(xi), 0)
+                stacked[float(xi)] = level + 1
+                ax.plot(xi, floor, marker="v", ms=7, color=_colour(name, cleaners))
+                last = xi >= ratios[-1]  # label inside the panel
+                ax.annotate(
+                    f"{yi:.0f}%",
+                    (xi, floor),
+                    xytext=(-5 if last else 5, 2 + 8 * level),
+                    textcoords="offset points",
+                    ha="right" if last else "left",
+                    fontsize=6,
+                    color=_colour(name, cleaners),
+                )
         ax.set_xscale("log")
         ax.set_xticks(ratios, [f"{r:g}" for r in ratios])
         ax.minorticks_off()

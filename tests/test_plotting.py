@@ -115,6 +115,10 @@ def test_prial_figure_size_panels_and_lines(tmp_path):
     b_line = ax.containers[1].lines[0]
     np.testing.assert_array_equal(b_line.get_ydata(), [-50.0, -50.0, -50.0])
     np.testing.assert_array_equal(ax.containers[0].lines[0].get_ydata(), [40, 60, 80])
+    # ... and says so: a downward triangle on the floor and the true value
+    assert [t.get_text() for t in ax.texts] == ["-160%", "-140%", "-120%"]
+    assert [t.xy for t in ax.texts] == [(0.5, -50.0), (1.0, -50.0), (2.0, -50.0)]
+    assert sum(line.get_marker() == "v" for line in ax.lines) == 3
 
 
 def test_prial_rejects_empty_or_unknown_size():
