@@ -1,6 +1,6 @@
 """Reading the data of ``rmtclean clean`` and ``analyze``: the shared pre-steps.
 
-Read the table, hint at a transposed file, check the values are numeric,
+Read the table, refuse a transposed one, check the values are numeric,
 refuse or convert prices, and handle missing values (``--missing``) the same
 way for every method and for ``analyze``.
 """
@@ -42,18 +42,22 @@ def _source(args) -> str:
     return f"DATA {args.data!r}"
 
 
-def _hint_if_transposed(frame, args) -> None:
-    """Warn when the column names read as dates: rows should be the dates."""
+def _refuse_if_transposed(frame, args) -> None:
+    """Refuse a table whose column names read as dates: rows should be dates.
+
+    Read as it stands, such a file would give the covariance of the dates
+    (a T x T matrix, hundreds of megabytes for a few thousand days).
+    """
     from rmtclean.io import date_like_labels
 
     n_dates = date_like_labels(frame.columns)
     n_columns = frame.shape[1]
     if n_columns >= 3 and n_dates >= _DATE_HEADER_SHARE * n_columns:
-        warn(
-            args,
+        raise ValueError(
             f"{n_dates} of the {n_columns} column names of {args.data} read as "
-            "dates: rows must be observations and columns variables; if the file "
-            "holds one variable per row, transpose it first.",
+            "dates: the file seems to hold one variable per row, but rows must "
+            "be observations and columns variables. Pass --transpose to read "
+            "it that way."
         )
 
 
@@ -69,7 +73,10 @@ def load_returns(args):
 
     source = _source(args)
     frame = read_table(args.data)
-    _hint_if_transposed(frame, args)
+    if args.transpose:
+        frame = frame.T
+    else:
+        _refuse_if_transposed(frame, args)
     extra = 1 if args.from_prices else 0
     frame = numeric_matrix(frame, min_rows=MIN_ROWS + extra, source=source)
     constant = [str(c) for c in frame.columns[frame.nunique(dropna=True) <= 1]]

@@ -303,6 +303,12 @@ def _add_data_arguments(parser, standardize_help: str) -> None:
     )
     parser.add_argument("--standardize", action="store_true", help=standardize_help)
     parser.add_argument(
+        "--transpose",
+        action="store_true",
+        help="DATA holds one variable per row (dates as column names): read it "
+        "transposed",
+    )
+    parser.add_argument(
         "--from-prices",
         action="store_true",
         help="DATA holds prices: convert them to log returns first",

