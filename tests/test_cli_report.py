@@ -56,6 +56,9 @@ def test_analyze_json_count_and_warnings(long_panel, capsys, standardize):
     k = report.n_signal
     if k < report.p_values.size and report.p_values[k] < report.alpha:
         assert "(below threshold)" in out
+        # ... and a line says why a tiny p-value does not make it signal
+        assert f"  rank {k + 1}: its p-value is below the level 0.05" in out
+        assert f"threshold {report.threshold:.6g} (the edge of the law" in out
 
 
 @pytest.mark.parametrize("entry", CLEANERS, ids=lambda e: e.short)

@@ -172,6 +172,7 @@ class SpectrumReport:
             f"  {'rank':>4}  {'eigenvalue':>12}  {'p-value':>10}  "
             f"{'spike':>12}  {'overlap':>8}"
         )
+        notes = []
         for rank, p in enumerate(self.p_values, start=1):
             value = self.eigenvalues[rank - 1]
             if rank <= self.n_signal:
@@ -179,9 +180,16 @@ class SpectrumReport:
                 overlap = f"{self.overlaps[rank - 1]:8.4f}"
             elif p < self.alpha:  # rejected, but not above the threshold
                 spike, overlap = "(below threshold)", ""
+                notes.append(
+                    f"  rank {rank}: its p-value is below the level {self.alpha:g}, "
+                    f"but the eigenvalue {value:.6g} is below the threshold "
+                    f"{self.threshold:.6g} (the edge of the law fitted to the "
+                    "whole spectrum), so it is not counted as signal."
+                )
             else:
                 spike, overlap = f"{'(noise)':>12}", f"{'':>8}"
             lines.append(f"  {rank:>4}  {value:12.6g}  {p:10.3g}  {spike}  {overlap}")
+        lines += notes
         lines += [f"warning: {message}" for message in self.warnings]
         lines.append(CAUTION)
         return "\n".join(lines)
