@@ -150,7 +150,9 @@ def dask_sample_spectrum(
     leading = None
     if route == "dense":
         if standardize:
-            scale = column_scale(np.diag(scatter).copy())
+            scale = column_scale(
+                np.diag(scatter).copy(), location=location, n_rows=n_rows
+            )
             scatter = scatter / np.outer(scale, scale)
         if eigenvectors == "leading":
             vals, leading = dense_leading(np.require(scatter, np.float64, "CW"))
@@ -161,7 +163,8 @@ def dask_sample_spectrum(
             vecs = np.ascontiguousarray(vecs[:, ::-1][:, :rank])
     else:
         if standardize:
-            scale = column_scale(np.asarray((Z * Z).sum(axis=0).compute()))
+            var = np.asarray((Z * Z).sum(axis=0).compute())
+            scale = column_scale(var, location=location, n_rows=n_rows)
             Z = Z / scale
             scatter = np.asarray((Z @ Z.T).compute())
         if eigenvectors == "leading":

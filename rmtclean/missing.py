@@ -400,7 +400,8 @@ def missing_sample_spectrum(
         )
     scale = None
     if standardize:
-        scale = column_scale(np.diag(cov).copy())
+        var = np.diag(cov).copy()
+        scale = column_scale(var, location=est.location, n_rows=np.shape(X)[0])
         cov = cov / np.outer(scale, scale)
     vals, vecs = np.linalg.eigh(cov)
     n_components = max(1, min(n_features, int(math.floor(dof))))

@@ -100,6 +100,17 @@ def test_dask_bad_input():
         KeepSample().fit(da.ones((1, 3), chunks=(1, 3)))
 
 
+@pytest.mark.parametrize("n_features", [4, 40])  # dense and Gram routes
+def test_dask_standardize_refuses_a_constant_not_binary_column(rng, n_features):
+    # 0.01 centres to residuals of order eps, not 0: zero variance all the same.
+    X = rng.standard_normal((20, n_features))
+    X[:, 2] = 0.01
+    with pytest.raises(ValueError, match=r"zero variance \(first index 2\)"):
+        dask_sample_spectrum(
+            da.from_array(X, chunks=(10, n_features)), standardize=True
+        )
+
+
 def test_backtest_on_local_cluster_equals_local_run(rng, client):
     from sklearn.covariance import LedoitWolf
 

@@ -77,11 +77,31 @@ def test_standardize_gives_correlation_spectrum(rng):
     np.testing.assert_allclose(spec.scale, X.std(axis=0, ddof=1), rtol=1e-12)
 
 
-def test_standardize_refuses_constant_column(rng):
-    X = rng.standard_normal((20, 4))
-    X[:, 2] = 3.0
-    with pytest.raises(ValueError, match="zero variance"):
+@pytest.mark.parametrize("value", [3.0, 0.0, 0.01, 0.1, -7.3e-5, 1e8 / 3])
+@pytest.mark.parametrize("n_features", [4, 40])  # dense and Gram routes
+def test_standardize_refuses_constant_column(rng, value, n_features):
+    # A constant that is not a binary fraction (0.01) centres to residuals
+    # of order eps |mean|, not 0: still zero variance, not a column of +-1.
+    X = rng.standard_normal((20, n_features))
+    X[:, 2] = value
+    assert np.ptp(X[:, 2]) == 0
+    with pytest.raises(ValueError, match=r"zero variance \(first index 2\)"):
         SampleSpectrum.from_data(X, standardize=True)
+    from rmtclean.missing import missing_sample_spectrum
+
+    X[0, 0] = np.nan
+    with pytest.raises(ValueError, match=r"zero variance \(first index 2\)"):
+        missing_sample_spectrum(X, method="pairwise", standardize=True)
+
+
+def test_standardize_keeps_a_small_spread_around_a_large_level(rng):
+    # Prices near 100 moving by 1e-9: tiny relative spread, far above
+    # rounding error (1e-14 of the level); the correlation is numpy's.
+    X = rng.standard_normal((50, 5))
+    X[:, 1] = 100.0 + 1e-9 * rng.standard_normal(50)
+    spec = SampleSpectrum.from_data(X, standardize=True)
+    ref = _desc_eigvalsh(np.corrcoef(X, rowvar=False))
+    np.testing.assert_allclose(spec.eigenvalues, ref, rtol=1e-6)
 
 
 def test_input_not_modified(rng):

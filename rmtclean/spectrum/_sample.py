@@ -226,7 +226,9 @@ class SampleSpectrum:
             cov = Xc.T @ Xc
             cov *= 1.0 / dof
             if standardize:
-                scale = column_scale(cov.diagonal().copy())
+                scale = column_scale(
+                    cov.diagonal().copy(), location=location, n_rows=n_rows
+                )
                 cov /= np.outer(scale, scale)
         else:
             if probs is None:
@@ -234,7 +236,9 @@ class SampleSpectrum:
             else:
                 Z = Xc * np.sqrt(probs * (total / dof))[:, None]
             if standardize:
-                scale = column_scale(np.einsum("ij,ij->j", Z, Z))
+                scale = column_scale(
+                    np.einsum("ij,ij->j", Z, Z), location=location, n_rows=n_rows
+                )
                 Z /= scale
             cov = Z.T @ Z if route == "dense" else None
         if standardize and keep_samples:
@@ -345,12 +349,26 @@ def gram_leading(Z, gram: np.ndarray, rank: int):
     return vals, leading
 
 
-def column_scale(var: np.ndarray, needed_by: str = "standardize=True") -> np.ndarray:
+def column_scale(
+    var: np.ndarray,
+    needed_by: str = "standardize=True",
+    *,
+    location: np.ndarray | None = None,
+    n_rows: int = 1,
+) -> np.ndarray:
     """Column standard deviations from variances; zero variance is an error.
 
-    ``needed_by`` names what needs the scales, in the error message.
+    ``needed_by`` names what needs the scales, in the error message. With
+    the columns' ``location`` (their means) and ``n_rows``, a variance at or
+    below rounding error of the column's level, ``(n_rows eps |location|)^2``,
+    counts as zero: a constant column whose value is not a binary fraction
+    (0.01) centres to residuals of order ``eps |mean|``, not to 0, and
+    divided by their spread it would become a column of +-1.
     """
-    bad = np.flatnonzero(~(var > 0))
+    floor = 0.0
+    if location is not None:
+        floor = (n_rows * np.finfo(np.float64).eps * np.abs(location)) ** 2
+    bad = np.flatnonzero(~(var > floor))
     if bad.size:
         raise ValueError(
             f"{needed_by} needs every column to vary, but "
