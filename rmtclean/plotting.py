@@ -363,7 +363,7 @@ def _draw_spectrum(
 
     k = bulk.n_signal
     if scale == "auto":
-        spread = bulk.statistic > _fit_warning_level(bulk.n_used)
+        spread = _fit_fails(bulk.statistic, bulk.n_used)
         scale = "log" if spread else "linear"
     # rounding-error values (null space) would stretch a log axis to 1e-16
     positive = values[: numerical_rank(values, n_samples, n_features)]
@@ -455,10 +455,10 @@ def _draw_spectrum(
     ax.legend(fontsize=7, loc="upper right")
 
 
-def _fit_warning_level(n_used):
-    from rmtclean.spectrum._report import fit_warning_level
+def _fit_fails(statistic, n_used):
+    from rmtclean.spectrum._report import fit_fails
 
-    return fit_warning_level(n_used)
+    return fit_fails(statistic, n_used)
 
 
 def plot_spectrum(

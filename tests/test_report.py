@@ -159,3 +159,28 @@ def test_readme_documents_every_json_key(rng):
         documented |= set(re.findall(r"`(\w+)`", row))
     keys = set(analyze_spectrum(spiked_data(rng, 101, 20)).to_dict())
     assert documented == keys | {"data", "caution"}
+
+
+def test_fit_warning_only_above_the_level_and_printed_apart():
+    # A KS distance equal to the level up to rounding is not above it (4/25
+    # computed as 0.16000000000000003 printed "0.16 > 0.16"); a distance
+    # above it is printed with the digits that tell the two apart.
+    from types import SimpleNamespace
+
+    from rmtclean.spectrum._report import _fit_warnings, fit_fails, fit_warning_level
+
+    level = fit_warning_level(25)
+    assert level == 4 / 25
+    assert not fit_fails(0.16000000000000003, 25)
+    assert fit_fails(0.1604, 25)
+    assert not fit_fails(0.1, 100) and fit_fails(0.11, 100)
+
+    def words(statistic):
+        fit = SimpleNamespace(statistic=statistic, n_used=25)
+        return _fit_warnings(fit, 1.0, 4, 49, 29.0, level)
+
+    assert words(0.16000000000000003) == []
+    (message,) = words(0.1604)
+    assert "KS distance 0.1604 > 0.16)" in message
+    (message,) = words(0.37)
+    assert "KS distance 0.37 > 0.16)" in message

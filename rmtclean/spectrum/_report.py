@@ -24,7 +24,13 @@ from rmtclean.spectrum._edge import (
 from rmtclean.spectrum._sample import sample_spectrum
 from rmtclean.spectrum._spikes import _invert_spikes
 
-__all__ = ["SpectrumReport", "analyze_spectrum", "fit_warning_level", "spectrum_report"]
+__all__ = [
+    "SpectrumReport",
+    "analyze_spectrum",
+    "fit_fails",
+    "fit_warning_level",
+    "spectrum_report",
+]
 
 #: Closes every printed report (and the CLI's outputs, ``rmtclean.demo``).
 CAUTION = (
@@ -50,6 +56,15 @@ LONG_SAMPLE_RATIO = 0.02
 def fit_warning_level(n_used: int) -> float:
     """KS distance above which the bulk fit is said not to hold."""
     return max(FIT_WARNING_LEVEL, FIT_WARNING_SCALE / max(int(n_used), 1))
+
+
+def fit_fails(statistic: float, n_used: int) -> bool:
+    """Whether a bulk fit's KS distance is above :func:`fit_warning_level`.
+
+    A distance equal to the level up to rounding (``4/25`` computed as
+    ``0.16000000000000003`` against ``4 / 25``) does not count as above it.
+    """
+    return statistic > fit_warning_level(n_used) * (1.0 + 1e-9)
 
 
 @dataclass(frozen=True)
@@ -197,11 +212,15 @@ class SpectrumReport:
 
 def _fit_warnings(fit, ratio, n_signal, n_features, n_samples, level):
     """The words a failed bulk fit owes the user (empty if the fit holds)."""
-    if fit.statistic <= level:
+    if not fit_fails(fit.statistic, fit.n_used):
         return []
+    # two digits, more if they would print "0.16 > 0.16"
+    digits = next(
+        (d for d in range(2, 8) if f"{fit.statistic:.{d}g}" != f"{level:.{d}g}"), 8
+    )
     head = (
         f"the Marchenko-Pastur law does not describe this spectrum (bulk fit "
-        f"KS distance {fit.statistic:.2g} > {level:.2g})"
+        f"KS distance {fit.statistic:.{digits}g} > {level:.{digits}g})"
     )
     if ratio < LONG_SAMPLE_RATIO:
         return [
