@@ -82,6 +82,10 @@ def test_clean_standardize_report_writes_the_matrix(
     # the warnings (and the figure) come from the same report as the count,
     # also where the cleaned spectrum keeps few eigenvectors (clip, spike)
     assert all(f"rmtclean clean: warning: {w}" in err for w in report.warnings)
+    # one number of degrees of freedom for every method: the data's T - 1
+    # (LinearShrink's divisor T, scikit-learn's convention, said beside it)
+    assert f"degrees of freedom: {frame.shape[0] - 1}  (N / dof" in stdout
+    assert ("divisor of S: 13118 (bias=True)" in stdout) == (entry.short == "linear")
 
 
 def test_clean_keeps_the_matrix_when_the_figure_fails(long_panel, tmp_path, capsys):
