@@ -79,7 +79,9 @@ def load_returns(args):
         _refuse_if_transposed(frame, args)
     extra = 1 if args.from_prices else 0
     frame = numeric_matrix(frame, min_rows=MIN_ROWS + extra, source=source)
-    constant = [str(c) for c in frame.columns[frame.nunique(dropna=True) <= 1]]
+    # one value seen at least twice (a column of NaN is a missing-value matter)
+    flat = (frame.nunique(dropna=True) <= 1) & (frame.count() >= 2)
+    constant = [str(c) for c in frame.columns[flat]]
     # All constant: the cleaners refuse it with their own message; with
     # --standardize they name the first constant column.
     if constant and len(constant) < frame.shape[1] and not args.standardize:

@@ -12,7 +12,7 @@ import re
 import sys
 import warnings
 
-__all__ = ["FLAGS", "WarningLines", "cli_language", "warn"]
+__all__ = ["FLAGS", "STEPS", "WarningLines", "cli_language", "warn"]
 
 
 # Python parameter -> the flag that sets it, for messages.
@@ -22,6 +22,14 @@ FLAGS = {
     "missing": "--missing",
     "standardize": "--standardize",
     "random_state": "--seed",
+}
+
+
+# Library function -> the step of the command it is, for messages.
+STEPS = {
+    "analyze_spectrum": "the spectrum report",
+    "pairwise_covariance": "--missing pairwise",
+    "em_covariance": "--missing em",
 }
 
 
@@ -48,6 +56,9 @@ def cli_language(message: str, columns=None, flags=None) -> str:
     """
     text = " ".join(str(message).split())
     known = {**(flags or {}), **FLAGS}
+    text = re.sub(
+        r"\b(\w+)(?= needs )", lambda m: STEPS.get(m.group(1), m.group(1)), text
+    )
 
     def flag(match):
         return known.get(match.group(1), match.group(0))

@@ -186,6 +186,12 @@ def read_table(path, *, index_col="auto"):
             frame = pd.read_csv(path, **options)
     except pd.errors.EmptyDataError:
         raise ValueError(f"The file {str(path)!r} has no data.") from None
+    except UnicodeDecodeError as exc:  # a binary file named .csv
+        raise ValueError(
+            f"Cannot read {str(path)!r} as text: byte {exc.object[exc.start]:#04x} "
+            f"at position {exc.start} is not UTF-8. Save the table as a UTF-8 "
+            "CSV or TSV file, or as Parquet or .npy."
+        ) from None
     except pd.errors.ParserError as exc:  # ragged or truncated rows, bad quoting
         detail = " ".join(str(exc).split())
         raise ValueError(f"Cannot parse {str(path)!r} as a table: {detail}") from exc
@@ -228,7 +234,8 @@ def numeric_matrix(frame, *, min_rows: int = 2, source: str = "the data"):
     Raises
     ------
     ValueError
-        Naming the first non-numeric columns, or the number of rows when
+        Naming the first non-numeric columns or the columns holding infinite
+        values, or the number of rows when
         there are fewer than ``min_rows``.
 
     Examples
@@ -269,7 +276,16 @@ def numeric_matrix(frame, *, min_rows: int = 2, source: str = "the data"):
             f"{source} has {frame.shape[0]} row(s); at least {min_rows} "
             "observations are needed."
         )
-    return frame.astype(np.float64)
+    out = frame.astype(np.float64)
+    infinite = np.isinf(out.to_numpy()).sum(axis=0)
+    if infinite.any():
+        cols = [str(c) for c, n in zip(out.columns, infinite, strict=True) if n]
+        shown = ", ".join(repr(c) for c in cols[:3]) + (" ..." if len(cols) > 3 else "")
+        raise ValueError(
+            f"{source} has {int(infinite.sum())} infinite value(s) in "
+            f"{len(cols)} column(s) ({shown}); every value must be finite."
+        )
+    return out
 
 
 def successive_difference_ratio(X) -> np.ndarray:

@@ -123,9 +123,14 @@ def _check_overlap(counts: np.ndarray, need: int, func: str) -> None:
     bad = np.argwhere(counts < need)
     if bad.size:
         i, j = (int(v) for v in bad[0])
+        shared = (
+            f"column {i} has {int(counts[i, i])} observed row(s)"
+            if i == j
+            else f"columns {i} and {j} share {int(counts[i, j])}"
+        )
         raise ValueError(
             f"{func} needs at least {need} rows in which both columns of every "
-            f"pair are observed; columns {i} and {j} share {int(counts[i, j])}."
+            f"pair are observed; {shared}."
         )
 
 

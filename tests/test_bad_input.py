@@ -727,7 +727,7 @@ CLI_ROWS = [
         "inf.csv",
         _write_csv(_with_inf()),
         ["clean", "--method", "SpikeShrink"],
-        r"contains infinity",
+        r"1 infinite value\(s\) in 1 column\(s\) \('c\d+'\); every value",
     ),
 ]
 

@@ -252,6 +252,42 @@ def test_zero_variance_column_named_in_error_and_warning(returns_csv, tmp_path, 
     assert len(lines) == len(set(lines))
 
 
+def test_bad_files_are_refused_in_the_words_of_the_command(
+    returns_csv, tmp_path, capsys
+):
+    # One line each, naming the file or the column and no library function:
+    # a PNG saved as .csv, an infinite value, a column of one value seen
+    # once (a missing-value matter, not a "constant" column), a single
+    # column (no spectrum), and --missing pairwise on a column observed once.
+    path, frame = returns_csv
+    png = tmp_path / "image.csv"
+    png.write_bytes(b"\x89PNG\r\n\x1a\n" + bytes(range(256)))
+    code, _, err = _run(["analyze", png], capsys)
+    assert code == 1 and err.count("\n") == 1
+    assert "Cannot read" in err and "image.csv" in err and "UTF-8" in err
+    inf = tmp_path / "inf.csv"
+    frame.assign(**{frame.columns[2]: np.r_[np.inf, frame.iloc[1:, 2]]}).to_csv(inf)
+    code, _, err = _run(["clean", inf, "--out", tmp_path / "c.csv"], capsys)
+    assert code == 1 and err.count("\n") == 1
+    assert f"1 infinite value(s) in 1 column(s) ('{frame.columns[2]}')" in err
+    sparse = frame.copy()
+    sparse.iloc[1:, 0] = np.nan
+    sparse_path = tmp_path / "sparse.csv"
+    sparse.to_csv(sparse_path)
+    argv = ["clean", sparse_path, "--missing", "pairwise", "--out", tmp_path / "p.csv"]
+    code, _, err = _run(argv, capsys)
+    assert code == 1 and "constant" not in err
+    assert err.endswith(
+        f"--missing pairwise needs at least 2 rows in which both columns of every "
+        f"pair are observed; column '{frame.columns[0]}' has 1 observed row(s).\n"
+    )
+    one = tmp_path / "one.csv"
+    frame.iloc[:, :1].to_csv(one)
+    code, _, err = _run(["analyze", one], capsys)
+    assert code == 1 and "analyze_spectrum" not in err
+    assert "error: the spectrum report needs at least 3 nonzero" in err
+
+
 # -- --missing: one pre-step for every method and analyze ---------------------
 @pytest.fixture
 def holes_csv(tmp_path):

@@ -195,6 +195,10 @@ def test_no_overlap_is_an_error():
     X = np.array([[1.0, np.nan], [2.0, np.nan], [np.nan, 1.0], [np.nan, 3.0]])
     with pytest.raises(ValueError, match="columns 0 and 1 share 0"):
         pairwise_covariance(X)
+    # a column observed once is named once ("columns 1 and 1 share 1" before)
+    X = np.array([[np.nan, 1.0], [np.nan, 2.0], [3.0, 1.0], [np.nan, 4.0]])
+    with pytest.raises(ValueError, match=r"; column 0 has 1 observed row\(s\)\.$"):
+        pairwise_covariance(X)
     with pytest.raises(ValueError, match="'max_iter' parameter of em_covariance"):
         em_covariance(X, max_iter=0)
 
