@@ -284,8 +284,10 @@ def _cmd_analyze(args) -> int:
         report = _spectrum_report(frame, args)
     except (ValueError, TypeError) as exc:
         raise missing_values_error(frame, args) or exc from exc
-    for message in report.warnings:
-        warn(args, message)
+    # The text report carries its warnings: on a terminal, say them once.
+    if args.json or not sys.stdout.isatty():
+        for message in report.warnings:
+            warn(args, message)
     if args.json:
         # One flat object: the report's own keys and types (README, "JSON
         # output of analyze"), the file name and the caution.

@@ -171,3 +171,17 @@ def test_analyze_vol_half_life_names_a_constant_column(tmp_path, capsys):
     line = err.strip().splitlines()[-1]
     assert line.count("--vol-half-life") == 1
     assert repr(str(frame.columns[4])) in line
+
+
+def test_analyze_on_a_terminal_says_each_warning_once(long_panel, capsys, monkeypatch):
+    # Standard output and standard error share the terminal: the text report
+    # carries the warnings, so they are not repeated on standard error.
+    path, frame = long_panel
+    import sys
+
+    monkeypatch.setattr(sys.stdout, "isatty", lambda: True)
+    code, out, err = _run(["analyze", path], capsys)
+    assert code == 0
+    report = analyze_spectrum(frame.to_numpy())
+    assert report.warnings and all(f"warning: {w}" in out for w in report.warnings)
+    assert "warning" not in err
