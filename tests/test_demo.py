@@ -20,6 +20,14 @@ def test_demo_scores_every_cleaner_and_the_oracle_is_best():
     # beat it beyond rounding.
     assert np.all(losses[1:] >= losses[0] * (1 - 1e-9))
     assert "Frobenius loss" in str(result)
+    # AutoShrink's row says what it chose and by which score; its loss is
+    # the chosen cleaner's
+    (note,) = result.notes
+    assert note.startswith("AutoShrink: chosen by held-out loglik over 5 folds: ")
+    assert note in str(result)
+    chosen = note.split(": ")[2].split(" (")[0]
+    loss = dict((row[0], row[1]) for row in result.rows)
+    assert loss["AutoShrink"] == loss[chosen]
 
 
 def test_demo_command_prints_report_table_and_caution(capsys):
