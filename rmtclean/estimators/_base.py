@@ -17,12 +17,12 @@ from rmtclean._validation import (
     Options,
     check_params,
     check_sample_weight,
-    numerical_rank,
 )
 from rmtclean.distributed import dask_sample_spectrum, is_dask_array
 from rmtclean.exceptions import RankDeficientWarning, WeakEstimateWarning
 from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import DENSE_LIMIT, CleanedSpectrum, SampleSpectrum
+from rmtclean.spectrum._sample import rank_deficiency
 from rmtclean.volatility import devolatilise
 from rmtclean.weights import exponential_weights, kish_weights
 
@@ -282,20 +282,9 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
                 WeakEstimateWarning,
                 stacklevel=3,
             )
-        vals = spectrum.eigenvalues
-        # Round-off zeros (numpy's matrix_rank tolerance) among the
-        # eigenvalues the sample size allows: duplicated or collinear
-        # columns, or repeated rows.
-        n_zero = vals.size - numerical_rank(vals, spectrum.n_features, vals.size + 1)
-        if vals[0] > 0 and n_zero:
-            warnings.warn(
-                f"{owner}.fit: the data are rank deficient beyond what the sample "
-                f"size explains: {n_zero} of the {vals.size} sample eigenvalues "
-                "it allows are zero (duplicated or collinear columns, or "
-                "repeated rows); the cleaned spectrum treats them as noise.",
-                RankDeficientWarning,
-                stacklevel=3,
-            )
+        words = rank_deficiency(spectrum)
+        if words is not None:
+            warnings.warn(f"{owner}.fit: {words}", RankDeficientWarning, stacklevel=3)
 
     def _fit_dask(self, X, sample_weight):
         owner = type(self).__name__

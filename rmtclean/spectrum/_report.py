@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import NamedTuple
 
 import numpy as np
@@ -21,7 +21,7 @@ from rmtclean.spectrum._edge import (
     _check_edge_options,
     _detect_signal,
 )
-from rmtclean.spectrum._sample import sample_spectrum
+from rmtclean.spectrum._sample import rank_deficiency, sample_spectrum
 from rmtclean.spectrum._spikes import _invert_spikes
 
 __all__ = [
@@ -500,7 +500,7 @@ def analyze_spectrum(
         sample_weight=sample_weight,
         standardize=standardize,
     )
-    return spectrum_report(
+    report = spectrum_report(
         spec.eigenvalues,
         spec.n_samples,
         spec.n_features,
@@ -511,3 +511,8 @@ def analyze_spectrum(
         fix_ratio=fix_ratio,
         n_observations=int(np.shape(X)[0]),
     )
+    # the estimators' RankDeficientWarning, said in the report as well
+    words = rank_deficiency(spec)
+    if words is None:
+        return report
+    return replace(report, warnings=(words, *report.warnings))

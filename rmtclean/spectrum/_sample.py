@@ -8,6 +8,7 @@ from dataclasses import dataclass, field
 import numpy as np
 import scipy.linalg
 
+from rmtclean._validation import numerical_rank
 from rmtclean.spectrum._cleaned import CleanedSpectrum
 from rmtclean.spectrum._partial import TridiagonalEigh
 from rmtclean.spectrum._randomized import randomized_leading
@@ -347,6 +348,28 @@ def gram_leading(Z, gram: np.ndarray, rank: int):
         return complete_basis(np.asarray(Z.T @ coef), tiny)
 
     return vals, leading
+
+
+def rank_deficiency(spectrum: SampleSpectrum) -> str | None:
+    """Words for round-off zeros among the eigenvalues the sample size allows.
+
+    Duplicated or collinear columns, or repeated rows, leave sample
+    eigenvalues at rounding-error level (numpy's ``matrix_rank``
+    tolerance) where the sample size allows nonzero ones. ``None`` when
+    there are none (or the spectrum is all zero).
+    """
+    vals = spectrum.eigenvalues
+    if not vals.size or not vals[0] > 0:
+        return None
+    n_zero = vals.size - numerical_rank(vals, spectrum.n_features, vals.size + 1)
+    if not n_zero:
+        return None
+    return (
+        f"the data are rank deficient beyond what the sample size explains: "
+        f"{n_zero} of the {vals.size} sample eigenvalues it allows are zero "
+        "(duplicated or collinear columns, or repeated rows); the cleaned "
+        "spectrum treats them as noise."
+    )
 
 
 def column_scale(
