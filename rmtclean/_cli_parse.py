@@ -1,14 +1,21 @@
 """Pieces of the ``rmtclean`` command's argument parsing.
 
 A subcommand parser that knows each option's flag (for messages that speak
-of flags) and the argparse types of the options.
+of flags) and the argparse types of the options (the cleaner names among them).
 """
 
 from __future__ import annotations
 
 import argparse
 
-__all__ = ["CommandParser", "count_at_least", "csv_list"]
+__all__ = [
+    "CommandParser",
+    "count_at_least",
+    "csv_list",
+    "method_choices",
+    "method_name",
+    "wrap_description",
+]
 
 
 class CommandParser(argparse.ArgumentParser):
@@ -58,3 +65,31 @@ def csv_list(kind):
             ) from None
 
     return parse
+
+
+def method_choices() -> str:
+    """The registry's short names with their descriptions, on one line."""
+    from rmtclean.estimators import CLEANERS
+
+    return "; ".join(f"{e.short}: {e.description}" for e in CLEANERS)
+
+
+def method_name(text: str) -> str:
+    """The class name of the cleaner ``text`` names (short, class or alias)."""
+    from rmtclean.estimators import CLEANERS, find_cleaner
+
+    try:
+        return find_cleaner(text).name
+    except ValueError:
+        shorts = ", ".join(e.short for e in CLEANERS)
+        raise argparse.ArgumentTypeError(
+            f"unknown method {text!r}; choose among {shorts}, or a class name "
+            "('rmtclean clean --help' says what each does)"
+        ) from None
+
+
+def wrap_description(text: str) -> str:
+    """A description wrapped as argparse wraps the options (raw formatter)."""
+    import textwrap
+
+    return textwrap.fill(text, 79)

@@ -25,7 +25,14 @@ from rmtclean._cli_input import (
     positive_rows,
 )
 from rmtclean._cli_messages import FLAGS, WarningLines, cli_language, warn
-from rmtclean._cli_parse import CommandParser, count_at_least, csv_list
+from rmtclean._cli_parse import (
+    CommandParser,
+    count_at_least,
+    csv_list,
+    method_choices,
+    method_name,
+    wrap_description,
+)
 
 __all__ = ["DEFAULT_METHOD", "MIN_ROWS", "build_parser", "main"]
 
@@ -69,26 +76,6 @@ def _add_demo_arguments(demo) -> None:
     )
     demo.add_argument("--seed", type=int, default=7, help="scenario seed (default 7)")
     demo.set_defaults(func=_cmd_demo)
-
-
-# -- messages -----------------------------------------------------------------
-def _method_choices() -> str:
-    """The registry's short names with their descriptions, on one line."""
-    from rmtclean.estimators import CLEANERS
-
-    return "; ".join(f"{e.short}: {e.description}" for e in CLEANERS)
-
-
-def _method_name(text: str) -> str:
-    """The class name of the cleaner ``text`` names (short, class or alias)."""
-    from rmtclean.estimators import find_cleaner
-
-    try:
-        return find_cleaner(text).name
-    except ValueError:
-        raise argparse.ArgumentTypeError(
-            f"unknown method {text!r}; choose among {_method_choices()}"
-        ) from None
 
 
 def _build_estimator(args):
@@ -169,6 +156,11 @@ def _report_figure(est, report, frame, args):
         ax=right,
         title=f"{args.method}: cleaned vs sample eigenvalues",
     )
+    import textwrap
+
+    from rmtclean.demo import CAUTION
+
+    fig.supxlabel(textwrap.fill(CAUTION, 150), fontsize=6.5, color="0.3")
     return fig
 
 
@@ -337,13 +329,17 @@ def _add_data_arguments(parser, standardize_help: str) -> None:
         action="store_true",
         help="skip the price check (positive data moving in small steps)",
     )
+    from rmtclean.estimators import CLEANERS
+
+    takers = ", ".join(e.short for e in CLEANERS if e.takes_missing)
     parser.add_argument(
         "--missing",
         choices=("drop", "pairwise", "em"),
         help="how to use data with missing values (NaN or empty cells): drop = "
         "drop the incomplete rows (any method); pairwise = pairwise-deletion "
-        "covariance, em = Gaussian EM estimate (methods that work from a "
-        "covariance estimate, no row weights). Default: refuse missing values",
+        "covariance, em = Gaussian EM estimate (analyze, and the methods that "
+        f"work from a covariance estimate: {takers}; no row weights). Default: "
+        "refuse missing values",
     )
 
 
@@ -354,9 +350,9 @@ def _add_clean_arguments(clean) -> None:
     clean.add_argument(
         "--method",
         default=DEFAULT_METHOD,
-        type=_method_name,
+        type=method_name,
         metavar="NAME",
-        help=f"the cleaner, one of {_method_choices()}. Class names and "
+        help=f"the cleaner, one of {method_choices()}. Class names and "
         f"aliases are accepted too, in any case (default: {DEFAULT_METHOD})",
     )
     clean.add_argument(
@@ -575,7 +571,9 @@ def _cmd_bench(args) -> int:
     return 0
 
 
-_FMT = argparse.RawDescriptionHelpFormatter
+_FMT = argparse.RawDescriptionHelpFormatter  # examples keep their lines
+
+
 # Each command: its add_parser keywords and the function adding its options.
 # The options are added only for the command that runs (they may import the
 # library to list choices and defaults); the one-line helps cost nothing.
@@ -594,10 +592,12 @@ _COMMANDS = {
         {
             "help": "print the bulk report of a data file's spectrum",
             "formatter_class": _FMT,
-            "description": "Fit the Marchenko-Pastur law to the bulk of DATA's "
-            "sample spectrum and report the noise variance, the effective ratio, "
-            "the edge, the signal eigenvalues with Tracy-Widom p-values, spike "
-            "strengths and eigenvector overlaps.",
+            "description": wrap_description(
+                "Fit the Marchenko-Pastur law to the bulk of DATA's "
+                "sample spectrum and report the noise variance, the effective ratio, "
+                "the edge, the signal eigenvalues with Tracy-Widom p-values, spike "
+                "strengths and eigenvector overlaps."
+            ),
             "epilog": "examples:\n"
             "  rmtclean analyze returns.csv --standardize\n"
             "  rmtclean analyze expression.parquet --json > report.json",
@@ -608,11 +608,13 @@ _COMMANDS = {
         {
             "help": "clean the covariance of a data file and write it with its labels",
             "formatter_class": _FMT,
-            "description": "Clean the sample covariance (or correlation) of DATA "
-            "with a random-matrix cleaner and write it, labelled by DATA's column "
-            "names, to --out (CSV, Parquet or .npy by extension) or as CSV to "
-            "standard output. --report draws the sample spectrum with the fitted "
-            "Marchenko-Pastur density and the cleaner's shrinkage curve.",
+            "description": wrap_description(
+                "Clean the sample covariance (or correlation) of DATA "
+                "with a random-matrix cleaner and write it, labelled by DATA's column "
+                "names, to --out (CSV, Parquet or .npy by extension) or as CSV to "
+                "standard output. --report draws the sample spectrum with the fitted "
+                "Marchenko-Pastur density and the cleaner's shrinkage curve."
+            ),
             "epilog": "examples:\n"
             "  rmtclean clean returns.csv > cov.csv\n"
             "  rmtclean clean returns.csv --method clip --out cov.parquet\n"

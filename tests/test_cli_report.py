@@ -185,3 +185,22 @@ def test_analyze_on_a_terminal_says_each_warning_once(long_panel, capsys, monkey
     report = analyze_spectrum(frame.to_numpy())
     assert report.warnings and all(f"warning: {w}" in out for w in report.warnings)
     assert "warning" not in err
+
+
+def test_report_figure_carries_the_caution(long_panel):
+    # The figure of clean --report is a report too: the caution is on it.
+    from types import SimpleNamespace
+
+    from matplotlib.text import Text
+
+    from rmtclean.cli import _estimator_report, _report_figure
+    from rmtclean.demo import CAUTION
+
+    _, frame = long_panel
+    frame = frame.iloc[-500:]
+    est = KernelShrink().fit(frame.to_numpy())
+    args = SimpleNamespace(standardize=False, method="KernelShrink")
+    report = _estimator_report(est, frame, args)
+    fig = _report_figure(est, report, frame, args)
+    texts = [" ".join(t.get_text().split()) for t in fig.findobj(Text)]
+    assert CAUTION in texts
