@@ -105,7 +105,24 @@ def load_returns(args):
             f"ratio {ratio:.3g}, returns give about 1). Pass --from-prices to "
             "convert to log returns, or --assume-returns to use them as they are."
         )
+    _warn_long_half_lives(frame.shape[0], args)
     return _handle_missing(frame, args)
+
+
+def _warn_long_half_lives(n_rows: int, args) -> None:
+    """Say when a half-life spans the whole table: it then changes little."""
+    effects = {
+        "half_life": "the row weights are all within a factor 2 of each other",
+        "vol_half_life": "the volatility it divides by is nearly constant",
+    }
+    for name, effect in effects.items():
+        value = getattr(args, name, None)
+        if value is not None and value >= n_rows:
+            warn(
+                args,
+                f"{FLAGS[name]} {value:g} is as long as the {n_rows} rows or "
+                f"longer: {effect}, so it changes the estimate little.",
+            )
 
 
 def _missing_choices(args) -> str:

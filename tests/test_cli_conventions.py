@@ -224,6 +224,19 @@ def test_column_positions_become_names():
     )
 
 
+def test_half_lives_longer_than_the_table_are_said(returns_csv, tmp_path, capsys):
+    # 120 rows: a half-life of 500 rows weighs them all within a factor 2
+    # (2^(-119/500) = 0.85), and an EWMA volatility that long hardly moves.
+    path, _ = returns_csv
+    argv = ["clean", path, "--out", tmp_path / "c.csv", "--half-life", "500"]
+    code, _, err = _run([*argv, "--vol-half-life", "1000"], capsys)
+    assert code == 0, err
+    lines = [w for w in _warnings(err, "clean") if "as long as the 120 rows" in w]
+    assert [w.split()[3] for w in lines] == ["--half-life", "--vol-half-life"]
+    code, _, err = _run(["analyze", path, "--half-life", "60"], capsys)
+    assert code == 0 and "as long as" not in err
+
+
 def test_bad_half_life_is_a_usage_error_naming_the_flag(returns_csv, capsys):
     path, _ = returns_csv
     with pytest.raises(SystemExit) as info:
