@@ -4,7 +4,7 @@ import argparse
 
 import pytest
 
-from rmtclean.cli import _method_name
+from rmtclean._cli_parse import method_name
 from rmtclean.estimators import CLEANERS, CleanerEntry, find_cleaner
 from tests._registry import exported_estimators
 
@@ -30,7 +30,7 @@ def test_every_spelling_finds_its_entry(entry):
     for text in (entry.name, entry.short, *entry.aliases):
         for variant in (text, text.upper(), text.lower(), f" {text} "):
             assert find_cleaner(variant) is entry
-        assert _method_name(text.swapcase()) == entry.name
+        assert method_name(text.swapcase()) == entry.name
 
 
 def test_linear_shrink_answers_to_ledoit_wolf():
@@ -42,5 +42,10 @@ def test_unknown_name_lists_the_choices():
         find_cleaner("Magic")
     for entry in CLEANERS:
         assert f"{entry.short}: {entry.description}" in str(info.value)
-    with pytest.raises(argparse.ArgumentTypeError, match="unknown method 'Magic'"):
-        _method_name("Magic")
+    with pytest.raises(
+        argparse.ArgumentTypeError, match="unknown method 'Magic'"
+    ) as info:
+        method_name("Magic")
+    # the command line lists the short names in one line, not every description
+    shorts = ", ".join(entry.short for entry in CLEANERS)
+    assert f"choose among {shorts}, or a class name" in str(info.value)
