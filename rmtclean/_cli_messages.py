@@ -12,7 +12,15 @@ import re
 import sys
 import warnings
 
-__all__ = ["FLAGS", "STEPS", "WarningLines", "cli_language", "warn"]
+__all__ = [
+    "FLAGS",
+    "STEPS",
+    "WarningLines",
+    "cli_language",
+    "degrees_of_freedom",
+    "level_note",
+    "warn",
+]
 
 
 # Python parameter -> the flag that sets it, for messages.
@@ -115,3 +123,37 @@ class WarningLines(warnings.catch_warnings):
         if text not in self._seen:
             self._seen.add(text)
             warn(self._args, text)
+
+
+def degrees_of_freedom(est) -> tuple[float, float]:
+    """The data's degrees of freedom and the estimator's divisor of S.
+
+    Equal but for LinearShrink's ``bias=True`` (scikit-learn's divisor T,
+    kept in ``degrees_of_freedom_``): the report and the printed line use
+    the data's ``T - 1`` (weights: their sum less one) for every method.
+    """
+    inner = getattr(est, "best_estimator_", est)
+    divisor = float(est.degrees_of_freedom_)
+    biased = getattr(inner, "bias", False) and not getattr(
+        inner, "assume_centered", False
+    )
+    return (divisor - 1.0 if biased else divisor), divisor
+
+
+def level_note(est, matrix, frame) -> str | None:
+    """What a robust variance level does to the written covariance, if used.
+
+    TylerShrink's default level is that of the Gaussian law with the same
+    median row norm: with heavy tails it lies below the variance (daily
+    returns: about 0.6 of it), which a risk forecast must know.
+    """
+    if getattr(est, "scale_estimate", None) != "robust":
+        return None
+    import numpy as np
+
+    ratio = float(np.trace(matrix.to_numpy())) / float(frame.var(ddof=1).sum())
+    return (
+        f"variance level: robust (median row norm), {ratio:.2f} times the sum of "
+        "the sample variances; with heavy tails it lies below the variance (in "
+        "Python, TylerShrink(scale_estimate='sample') keeps the sample's level)"
+    )

@@ -24,7 +24,14 @@ from rmtclean._cli_input import (
     missing_values_error,
     positive_rows,
 )
-from rmtclean._cli_messages import FLAGS, WarningLines, cli_language, warn
+from rmtclean._cli_messages import (
+    FLAGS,
+    WarningLines,
+    cli_language,
+    degrees_of_freedom,
+    level_note,
+    warn,
+)
 from rmtclean._cli_parse import (
     CommandParser,
     count_at_least,
@@ -101,21 +108,6 @@ def _build_estimator(args):
     return est.set_params(**{k: v for k, v in wanted.items() if k in params})
 
 
-def _degrees_of_freedom(est) -> tuple[float, float]:
-    """The data's degrees of freedom and the estimator's divisor of S.
-
-    Equal but for LinearShrink's ``bias=True`` (scikit-learn's divisor T,
-    kept in ``degrees_of_freedom_``): the report and the printed line use
-    the data's ``T - 1`` (weights: their sum less one) for every method.
-    """
-    inner = getattr(est, "best_estimator_", est)
-    divisor = float(est.degrees_of_freedom_)
-    biased = getattr(inner, "bias", False) and not getattr(
-        inner, "assume_centered", False
-    )
-    return (divisor - 1.0 if biased else divisor), divisor
-
-
 def _estimator_report(est, frame, args):
     """The spectrum report of the fitted estimator's sample spectrum.
 
@@ -129,7 +121,7 @@ def _estimator_report(est, frame, args):
     # cleaned spectrum_ may hold fewer: EigenClip and SpikeShrink keep
     # eigenvectors only where the cleaned value differs from the bulk's.)
     standardized = bool(args.standardize or est.scale_ is not None)
-    dof, divisor = _degrees_of_freedom(est)
+    dof, divisor = degrees_of_freedom(est)
     return spectrum_report(
         est.sample_eigenvalues_ * (divisor / dof),
         dof,
@@ -215,7 +207,7 @@ def _cmd_clean(args) -> int:
         else str(est.n_signal_)
     )
     where = "standard output" if target == "-" else target
-    dof, divisor = _degrees_of_freedom(est)
+    dof, divisor = degrees_of_freedom(est)
     lines = [
         f"{args.method} on {args.data}: {T} observations of {N} variables",
         f"  degrees of freedom: {dof:.6g}  (N / dof = {N / dof:.4g})"
@@ -223,6 +215,8 @@ def _cmd_clean(args) -> int:
         f"  signal eigenvalues: {signal}",
         f"  cleaned {kind}: written to {where}",
     ]
+    if kind == "covariance" and (note := level_note(est, matrix, frame)):
+        lines.insert(-1, f"  {note}")
     if hasattr(est, "describe_choice"):  # AutoShrink says what it chose
         lines.insert(3, f"  {est.describe_choice()}")
     if args.report:
