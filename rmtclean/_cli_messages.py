@@ -130,7 +130,8 @@ def degrees_of_freedom(est) -> tuple[float, float]:
 
     Equal but for LinearShrink's ``bias=True`` (scikit-learn's divisor T,
     kept in ``degrees_of_freedom_``): the report and the printed line use
-    the data's ``T - 1`` (weights: their sum less one) for every method.
+    the data's ``T - 1`` (with --half-life: Kish's effective sample size
+    less one) for every method.
     """
     inner = getattr(est, "best_estimator_", est)
     divisor = float(est.degrees_of_freedom_)

@@ -15,7 +15,7 @@ import pytest
 
 from rmtclean.estimators import CLEANERS, KernelShrink
 from rmtclean.spectrum import analyze_spectrum
-from rmtclean.weights import exponential_weights
+from rmtclean.weights import exponential_weights, kish_weights
 from tests._opendata import industry_returns
 from tests.test_cli import _run
 
@@ -106,18 +106,25 @@ def test_analyze_half_life_weights_the_rows(long_panel, capsys, tmp_path):
     # --half-life gives the rows w_t = 2^(-(T-1-t)/h) (RiskMetrics-style
     # exponential weighting, J.P. Morgan 1996), as clean does: the JSON is
     # the Python report of the same weights, and the degrees of freedom are
-    # sum(w) - 1 (frequency weights), far below the 13,118 rows.
+    # Kish's effective sample size less one, n_eff = (sum w)^2 / sum w^2
+    # (Kish 1965, Survey Sampling), far below the 13,118 rows, the same
+    # number and count as every estimator fitted with half_life.
     path, frame = long_panel
     code, out, err = _run(
         ["analyze", path, "--json", "--standardize", "--half-life", "126"], capsys
     )
     assert code == 0, err
     payload = json.loads(out)
-    w = exponential_weights(frame.shape[0], 126.0)
+    a = exponential_weights(frame.shape[0], 126.0)
+    n_eff = a.sum() ** 2 / (a**2).sum()
+    w = kish_weights(a)
     report = analyze_spectrum(frame.to_numpy(), standardize=True, sample_weight=w)
     assert payload["n_signal"] == report.n_signal
-    assert payload["degrees_of_freedom"] == pytest.approx(w.sum() - 1.0, rel=1e-12)
+    assert payload["degrees_of_freedom"] == pytest.approx(n_eff - 1.0, rel=1e-12)
     assert payload["noise_variance"] == pytest.approx(report.noise_variance, rel=1e-12)
+    est = KernelShrink(standardize=True, half_life=126.0).fit(frame.to_numpy())
+    assert est.degrees_of_freedom_ == pytest.approx(n_eff - 1.0, rel=1e-12)
+    assert est.n_signal_ == payload["n_signal"]
     # the pairwise/EM pre-steps take no row weights: one clear line, exit 1
     holes = frame.iloc[:300].copy()
     holes.iloc[3, 2] = np.nan
