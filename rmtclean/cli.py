@@ -137,14 +137,20 @@ def _report_figure(est, report, frame, args):
     n_features = frame.shape[1]
     fig, (left, right) = panel_grid(2)
     what = "correlation" if report.standardized else "covariance"
+    dof = report.degrees_of_freedom
     plot_report(
         report,
         ax=left,
-        title=f"sample {what} spectrum (N={n_features}, T={frame.shape[0]})",
+        title=f"sample {what} spectrum (N={n_features}, T={frame.shape[0]}, "
+        f"dof={dof:.4g})",
     )
+    label = args.method
+    if getattr(est, "scale_estimate", None) == "robust":  # said on the curve
+        level = est.eigenvalues_.sum() / est.sample_eigenvalues_.sum()
+        label += f" (robust level: {level:.2f} of the sample's)"
     plot_shrinkage(
         est.sample_eigenvalues_,
-        {args.method: est.eigenvalues_},
+        {label: est.eigenvalues_},
         ax=right,
         title=f"{args.method}: cleaned vs sample eigenvalues",
     )

@@ -356,7 +356,17 @@ def _unit(level: float) -> float:
 
 
 def _draw_spectrum(
-    ax, values, n_samples, n_features, bulk, edge, notes, scale, bins, ratio=None
+    ax,
+    values,
+    n_samples,
+    n_features,
+    bulk,
+    edge,
+    notes,
+    scale,
+    bins,
+    ratio=None,
+    threshold=None,
 ):
     """Histogram, fitted density, edge, signal marks and notes on one axes."""
     import textwrap
@@ -412,6 +422,15 @@ def _draw_spectrum(
     ax.axvline(
         edge / unit, color="tab:red", ls="--", lw=1, label=f"bulk edge {edge:.3g}"
     )
+    if threshold is not None and threshold > edge * (1 + 1e-6):
+        # the count's cutoff when it lies above the fitted bulk's edge
+        ax.axvline(
+            threshold / unit,
+            color="black",
+            ls=":",
+            lw=1,
+            label=f"signal threshold {threshold:.3g}",
+        )
     if k:
         signal = values[:k][values[:k] <= (np.inf if scale == "log" else _FAR * edge)]
         word = "eigenvalue" if k == 1 else "eigenvalues"
@@ -607,6 +626,7 @@ def plot_report(report, *, ax=None, title: str | None = None, scale: str = "auto
         scale,
         "auto",
         report.ratio,
+        report.threshold,
     )
     if title:
         ax.set_title(title)

@@ -249,6 +249,10 @@ def test_report_figure_says_the_warning_on_a_log_axis(tmp_path):
     labels = [line.get_label() for line in ax.lines]
     assert f"{report.n_signal} signal eigenvalues" in labels
     assert any(label.startswith("Marchenko-Pastur fit (q=0.00374") for label in labels)
+    # the count's cutoff lies above the fitted bulk's edge here: both drawn
+    assert report.threshold > report.bulk_edge
+    assert f"bulk edge {report.bulk_edge:.3g}" in labels
+    assert f"signal threshold {report.threshold:.3g}" in labels
     path = save_figure(fig, tmp_path / "report.png")
     assert _not_blank(path)
 
