@@ -79,6 +79,14 @@ def load_returns(args):
         _refuse_if_transposed(frame, args)
     extra = 1 if args.from_prices else 0
     frame = numeric_matrix(frame, min_rows=MIN_ROWS + extra, source=source)
+    sparse = [str(c) for c in frame.columns[frame.count() < 2]]
+    if sparse:  # no --missing method can give these a variance
+        shown = ", ".join(repr(c) for c in sparse[:3])
+        raise ValueError(
+            f"{_source(args)} has {len(sparse)} column(s) with fewer than 2 "
+            f"values ({shown}{' ...' if len(sparse) > 3 else ''}): no --missing "
+            "method can estimate their variance; remove them from the file."
+        )
     # one value seen at least twice (a column of NaN is a missing-value matter)
     flat = (frame.nunique(dropna=True) <= 1) & (frame.count() >= 2)
     constant = [str(c) for c in frame.columns[flat]]

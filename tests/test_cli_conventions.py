@@ -272,8 +272,8 @@ def test_bad_files_are_refused_in_the_words_of_the_command(
 ):
     # One line each, naming the file or the column and no library function:
     # a PNG saved as .csv, an infinite value, a column of one value seen
-    # once (a missing-value matter, not a "constant" column), a single
-    # column (no spectrum), and --missing pairwise on a column observed once.
+    # once (a missing-value matter, not a "constant" column, and no
+    # --missing method can estimate it), and a single column (no spectrum).
     path, frame = returns_csv
     png = tmp_path / "image.csv"
     png.write_bytes(b"\x89PNG\r\n\x1a\n" + bytes(range(256)))
@@ -291,10 +291,10 @@ def test_bad_files_are_refused_in_the_words_of_the_command(
     sparse.to_csv(sparse_path)
     argv = ["clean", sparse_path, "--missing", "pairwise", "--out", tmp_path / "p.csv"]
     code, _, err = _run(argv, capsys)
-    assert code == 1 and "constant" not in err
+    assert code == 1 and "constant" not in err and err.count("\n") == 1
     assert err.endswith(
-        f"--missing pairwise needs at least 2 rows in which both columns of every "
-        f"pair are observed; column '{frame.columns[0]}' has 1 observed row(s).\n"
+        f"1 column(s) with fewer than 2 values ('{frame.columns[0]}'): no --missing "
+        "method can estimate their variance; remove them from the file.\n"
     )
     one = tmp_path / "one.csv"
     frame.iloc[:, :1].to_csv(one)
