@@ -97,9 +97,13 @@ def load_returns(args):
         warn(
             args,
             f"{len(constant)} column(s) of {args.data} are constant ({shown}"
-            f"{' ...' if len(constant) > 3 else ''}): they carry no covariance, "
-            "yet the cleaned matrix gives them a small positive variance (a "
-            "cleaner lifts every zero eigenvalue); drop them to leave them out.",
+            f"{' ...' if len(constant) > 3 else ''}): they carry no covariance"
+            + (
+                " (each adds a zero eigenvalue to the spectrum)."
+                if args.command == "analyze"
+                else ", yet the cleaned matrix gives them a small positive variance "
+                "(a cleaner lifts every zero eigenvalue); drop them to leave them out."
+            ),
         )
     if args.from_prices:
         frame = prices_to_returns(frame)

@@ -211,7 +211,7 @@ def plot_prial(
                 ax.annotate(
                     f"{yi:.0f}%",
                     (xi, floor),
-                    xytext=(-5 if last else 5, 2 + 8 * level),
+                    xytext=(-5 if last else 5, 2 + 10 * level),
                     textcoords="offset points",
                     ha="right" if last else "left",
                     fontsize=6,
