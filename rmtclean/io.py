@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import contextlib
 import os
+import re
 import tempfile
 from pathlib import Path
 
@@ -194,7 +195,11 @@ def read_table(path, *, index_col="auto"):
         ) from None
     except pd.errors.ParserError as exc:  # ragged or truncated rows, bad quoting
         detail = " ".join(str(exc).split())
-        raise ValueError(f"Cannot parse {str(path)!r} as a table: {detail}") from exc
+        ragged = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", detail)
+        if ragged:  # pandas' tokenizer words, in the file's terms
+            want, line, got = ragged.groups()
+            detail = f"line {line} has {got} fields where the header has {want}"
+        raise ValueError(f"Cannot parse {str(path)!r} as a table: {detail}.") from exc
     except ImportError as exc:
         raise OSError(f"Cannot read {str(path)!r}: {exc}") from exc
     if frame.shape[1] == 0:

@@ -664,7 +664,8 @@ CLI_ROWS = [
         "ragged.csv",
         _write_text("a,b,c\n0.1,0.2,0.3\n0.2,0.1\n0.3,0.1,0.2,0.5,0.6\n0.1,0.1,0.1\n"),
         ["clean", "--method", "SpikeShrink"],
-        r"Cannot parse '.*ragged\.csv' as a table",
+        r"Cannot parse '.*ragged\.csv' as a table: line 4 has 5 fields where the "
+        r"header has 3\.$",
     ),
     (
         "truncated csv",
