@@ -64,6 +64,7 @@ def _refuse_if_transposed(frame, args) -> None:
 def load_returns(args):
     """The returns table of ``args.data``: read, checked, prices handled."""
     from rmtclean.io import (
+        _first_names,
         looks_like_prices,
         numeric_matrix,
         prices_to_returns,
@@ -79,25 +80,23 @@ def load_returns(args):
         _refuse_if_transposed(frame, args)
     extra = 1 if args.from_prices else 0
     frame = numeric_matrix(frame, min_rows=MIN_ROWS + extra, source=source)
-    sparse = [str(c) for c in frame.columns[frame.count() < 2]]
-    if sparse:  # no --missing method can give these a variance
-        shown = ", ".join(repr(c) for c in sparse[:3])
+    observed = frame.count()
+    sparse = frame.columns[observed < 2]
+    if sparse.size:  # no --missing method can give these a variance
         raise ValueError(
-            f"{_source(args)} has {len(sparse)} column(s) with fewer than 2 "
-            f"values ({shown}{' ...' if len(sparse) > 3 else ''}): no --missing "
-            "method can estimate their variance; remove them from the file."
+            f"{source} has {sparse.size} column(s) with fewer than 2 values "
+            f"({_first_names(sparse)}): no --missing method can estimate their "
+            "variance; remove them from the file."
         )
     # one value seen at least twice (a column of NaN is a missing-value matter)
-    flat = (frame.nunique(dropna=True) <= 1) & (frame.count() >= 2)
-    constant = [str(c) for c in frame.columns[flat]]
+    constant = frame.columns[(frame.nunique(dropna=True) <= 1) & (observed >= 2)]
     # All constant: the cleaners refuse it with their own message; with
     # --standardize they name the first constant column.
-    if constant and len(constant) < frame.shape[1] and not args.standardize:
-        shown = ", ".join(repr(c) for c in constant[:3])
+    if constant.size and constant.size < frame.shape[1] and not args.standardize:
         warn(
             args,
-            f"{len(constant)} column(s) of {args.data} are constant ({shown}"
-            f"{' ...' if len(constant) > 3 else ''}): they carry no covariance"
+            f"{constant.size} column(s) of {args.data} are constant "
+            f"({_first_names(constant)}): they carry no covariance"
             + (
                 " (each adds a zero eigenvalue to the spectrum)."
                 if args.command == "analyze"
@@ -173,9 +172,10 @@ def check_missing_option(args) -> None:
 def _missing_summary(frame):
     """``(n_missing, rows, "'a', 'b' ...")``: the NaN entries of ``frame``."""
     mask = frame.isna()
-    cols = [str(c) for c in frame.columns[mask.any(axis=0).to_numpy()]]
-    where = ", ".join(repr(c) for c in cols[:3]) + (" ..." if len(cols) > 3 else "")
-    return int(mask.to_numpy().sum()), len(cols), where
+    from rmtclean.io import _first_names
+
+    cols = frame.columns[mask.any(axis=0).to_numpy()]
+    return int(mask.to_numpy().sum()), cols.size, _first_names(cols)
 
 
 def missing_values_error(frame, args) -> ValueError | None:

@@ -65,7 +65,8 @@ class DemoResult:
             lines.append(
                 f"{name:<22}{loss:>16.4g}{loss / sample:>12.3f}{vol:>15.3f}{secs:>8.3f}"
             )
-        lines += [""] + list(self.notes) if self.notes else []
+        if self.notes:
+            lines += ["", *self.notes]
         lines += [""] + [TERMS[w] for w in ("loss ratio", "oracle", "sample", "sk.")]
         return "\n".join(lines)
 

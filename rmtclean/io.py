@@ -220,6 +220,13 @@ def read_table(path, *, index_col="auto"):
     return frame
 
 
+def _first_names(names, most: int = 3) -> str:
+    """``'a', 'b', 'c' ...``: the first ``most`` names quoted, then an ellipsis."""
+    names = [str(name) for name in names]
+    more = " ..." if len(names) > most else ""
+    return ", ".join(repr(name) for name in names[:most]) + more
+
+
 def numeric_matrix(frame, *, min_rows: int = 2, source: str = "the data"):
     """Check that every column of ``frame`` is numeric; return it as float64.
 
@@ -259,7 +266,7 @@ def numeric_matrix(frame, *, min_rows: int = 2, source: str = "the data"):
         or pd.api.types.is_bool_dtype(frame[c])
     ]
     if bad:
-        shown = ", ".join(repr(c) for c in bad[:3]) + (" ..." if len(bad) > 3 else "")
+        shown = _first_names(bad)
         raise ValueError(
             f"{source} has {len(bad)} non-numeric column(s): {shown}. Every "
             "column must be a numeric variable (an index column of labels is "
@@ -285,7 +292,7 @@ def numeric_matrix(frame, *, min_rows: int = 2, source: str = "the data"):
     infinite = np.isinf(out.to_numpy()).sum(axis=0)
     if infinite.any():
         cols = [str(c) for c, n in zip(out.columns, infinite, strict=True) if n]
-        shown = ", ".join(repr(c) for c in cols[:3]) + (" ..." if len(cols) > 3 else "")
+        shown = _first_names(cols)
         raise ValueError(
             f"{source} has {int(infinite.sum())} infinite value(s) in "
             f"{len(cols)} column(s) ({shown}); every value must be finite."
