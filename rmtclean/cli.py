@@ -235,12 +235,11 @@ def _spectrum_report(frame, args):
     """``analyze_spectrum`` of the table, through --missing pairwise/em if asked."""
     from rmtclean.spectrum import analyze_spectrum, spectrum_report
     from rmtclean.volatility import devolatilise
-    from rmtclean.weights import exponential_weights, kish_weights
+    from rmtclean.weights import half_life_weights
 
     weights = None
     if args.half_life is not None:
-        # as the estimators weigh them: n_eff - 1 degrees of freedom
-        weights = kish_weights(exponential_weights(frame.shape[0], args.half_life))
+        weights = half_life_weights(frame.shape[0], args.half_life)  # as clean's
     if args.missing in ("pairwise", "em") and frame.isna().to_numpy().any():
         from rmtclean.missing import missing_sample_spectrum
 

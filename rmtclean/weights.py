@@ -13,7 +13,12 @@ import numpy as np
 
 from rmtclean._validation import POSITIVE_FINITE, Interval, check_value
 
-__all__ = ["effective_sample_size", "exponential_weights", "kish_weights"]
+__all__ = [
+    "effective_sample_size",
+    "exponential_weights",
+    "half_life_weights",
+    "kish_weights",
+]
 
 
 def _check_weights(weights, func: str) -> np.ndarray:
@@ -168,3 +173,35 @@ def kish_weights(weights, sample_weight=None) -> np.ndarray:
             "The product of 'weights' and 'sample_weight' of kish_weights sums to zero."
         )
     return fa * (v1 / v2)
+
+
+def half_life_weights(n_samples: int, half_life: float, sample_weight=None):
+    """The row weights of ``half_life``: exponential decay, at Kish's scale.
+
+    The one rule of the estimators' ``half_life`` and of the ``rmtclean``
+    command's ``--half-life``: :func:`exponential_weights` rescaled by
+    :func:`kish_weights` (with the frequency weights ``sample_weight``, if
+    any), so that read as frequency weights they give Kish's effective
+    sample size less one degrees of freedom.
+
+    Parameters
+    ----------
+    n_samples : int
+        Number of rows, oldest first.
+    half_life : float
+        Rows over which a weight halves.
+    sample_weight : array-like of shape (n_samples,), default=None
+        Frequency weights.
+
+    Returns
+    -------
+    weights : ndarray of shape (n_samples,)
+
+    Examples
+    --------
+    >>> from rmtclean.weights import effective_sample_size, half_life_weights
+    >>> w = half_life_weights(500, 60.0)
+    >>> round(float(w.sum()), 6) == round(effective_sample_size(w), 6)
+    True
+    """
+    return kish_weights(exponential_weights(n_samples, half_life), sample_weight)

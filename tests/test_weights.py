@@ -4,7 +4,12 @@ import numpy as np
 import pytest
 
 from rmtclean.exceptions import InvalidParameterError
-from rmtclean.weights import effective_sample_size, exponential_weights, kish_weights
+from rmtclean.weights import (
+    effective_sample_size,
+    exponential_weights,
+    half_life_weights,
+    kish_weights,
+)
 from tests._identity_rule import KeepSample
 
 
@@ -143,3 +148,15 @@ def test_half_life_does_not_modify_inputs(rng):
     KeepSample(half_life=5.0).fit(X, sample_weight=f)
     np.testing.assert_array_equal(X, X0)
     np.testing.assert_array_equal(f, f0)
+
+
+def test_half_life_weights_are_the_decay_at_kish_scale():
+    # One rule for half_life (estimators) and --half-life (analyze, clean):
+    # decay 2^(-(T-1-t)/h), rescaled to sum to Kish's effective sample size
+    # (sum a)^2 / sum a^2 (Kish 1965, Survey Sampling).
+    a = exponential_weights(500, 60.0)
+    w = half_life_weights(500, 60.0)
+    np.testing.assert_array_equal(w, kish_weights(a))
+    assert w.sum() == pytest.approx(a.sum() ** 2 / (a**2).sum(), rel=1e-12)
+    f = np.arange(500) % 3 + 1.0
+    np.testing.assert_array_equal(half_life_weights(500, 60.0, f), kish_weights(a, f))

@@ -24,7 +24,7 @@ from rmtclean.rules._types import CleanedEigenvalues
 from rmtclean.spectrum import DENSE_LIMIT, CleanedSpectrum, SampleSpectrum
 from rmtclean.spectrum._sample import rank_deficiency
 from rmtclean.volatility import devolatilise
-from rmtclean.weights import exponential_weights, kish_weights
+from rmtclean.weights import half_life_weights
 
 __all__ = [
     "SpectralCovariance",
@@ -323,9 +323,7 @@ class SpectralCovariance(OneToOneFeatureMixin, TransformerMixin, EmpiricalCovari
         half_life = getattr(self, "half_life", None)
         if half_life is None:
             return sample_weight
-        # Rescaled to sum to Kish's effective size: read as frequency weights
-        # they give n_eff - 1 degrees of freedom (rmtclean.weights.kish_weights).
-        return kish_weights(exponential_weights(n_rows, half_life), sample_weight)
+        return half_life_weights(n_rows, half_life, sample_weight)
 
     def _fit_missing(self, X, sample_weight):
         from rmtclean.missing import missing_sample_spectrum
