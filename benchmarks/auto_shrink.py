@@ -162,7 +162,7 @@ def _time(est, X) -> float:
     return time.perf_counter() - start
 
 
-def cost(shapes, reps: int, seed: int):
+def cost(shapes, reps: int, seed: int, n_jobs=None):
     print("\n| N | T | slowest single | its s | AutoShrink s | ratio | target |")
     print("|---|---|---|---|---|---|---|")
     rng = np.random.default_rng(seed)
@@ -172,7 +172,7 @@ def cost(shapes, reps: int, seed: int):
             * np.r_[6.0, 4.0, np.ones(n_features - 2)]
         )
         ests = dict(singles(seed))
-        ests["auto"] = AutoShrink(random_state=seed)
+        ests["auto"] = AutoShrink(random_state=seed, n_jobs=n_jobs)
         for est in ests.values():  # warm-up: numba compilation, imports
             est.fit(X)
         times: dict = {k: [] for k in ests}
@@ -203,6 +203,12 @@ def main(argv=None) -> int:
     parser.add_argument("--timing-reps", type=int, default=5)
     parser.add_argument("--seed", type=int, default=0)
     parser.add_argument(
+        "--n-jobs",
+        type=int,
+        default=None,
+        help="AutoShrink's n_jobs in the cost part (folds in parallel)",
+    )
+    parser.add_argument(
         "--parts",
         default="gaussian,student-t,panel,cost",
         help="comma-separated subset of gaussian,student-t,panel,cost",
@@ -232,6 +238,7 @@ def main(argv=None) -> int:
             [(100, 200), (200, 100), (400, 800), (500, 185)],
             args.timing_reps,
             args.seed,
+            args.n_jobs,
         )
     return 0
 

@@ -17,6 +17,8 @@ __all__ = [
     "load_returns",
     "missing_values_error",
     "positive_rows",
+    "repeated_columns",
+    "spectrum_report_of",
 ]
 
 #: Fewest observations (after any price conversion) the data commands accept.
@@ -89,10 +91,28 @@ def load_returns(args):
             "variance; remove them from the file."
         )
     # one value seen at least twice (a column of NaN is a missing-value matter)
-    constant = frame.columns[(frame.nunique(dropna=True) <= 1) & (observed >= 2)]
-    # All constant: the cleaners refuse it with their own message; with
-    # --standardize they name the first constant column.
-    if constant.size and constant.size < frame.shape[1] and not args.standardize:
+    is_constant = (frame.nunique(dropna=True) <= 1) & (observed >= 2)
+    constant = frame.columns[is_constant]
+    if constant.size and args.standardize:
+        raise ValueError(
+            f"--standardize needs every column to vary, but {constant.size} "
+            f"column(s) of {args.data} are constant ({_first_names(constant)}): "
+            "remove them, or leave out --standardize."
+        )
+    copies = repeated_columns(frame, skip=is_constant.to_numpy())
+    if copies:
+        pairs = [f"{frame.columns[j]!r} = {frame.columns[i]!r}" for j, i in copies]
+        more = " ..." if len(pairs) > 3 else ""
+        warn(
+            args,
+            f"{len(copies)} column(s) of {args.data} repeat an earlier column "
+            f"({', '.join(pairs[:3])}{more}): each copy adds a zero eigenvalue "
+            "to the spectrum; remove the copies to leave them out.",
+        )
+    # The rank deficiency these explain is not said again (warn's filter).
+    args.known_zeros = (int(constant.size) + len(copies), frame.shape[1])
+    # All constant: the cleaners refuse it with their own message.
+    if constant.size and constant.size < frame.shape[1]:
         warn(
             args,
             f"{constant.size} column(s) of {args.data} are constant "
@@ -118,6 +138,70 @@ def load_returns(args):
         )
     _warn_long_half_lives(frame.shape[0], args)
     return _handle_missing(frame, args)
+
+
+def spectrum_report_of(frame, args):
+    """``analyze_spectrum`` of the table, through --missing pairwise/em if asked."""
+    from rmtclean.spectrum import analyze_spectrum, spectrum_report
+    from rmtclean.volatility import devolatilise
+    from rmtclean.weights import half_life_weights
+
+    weights = None
+    if args.half_life is not None:
+        weights = half_life_weights(frame.shape[0], args.half_life)  # as clean's
+    if args.missing in ("pairwise", "em") and frame.isna().to_numpy().any():
+        from rmtclean.missing import missing_sample_spectrum
+
+        # check_missing_option has refused --half-life with pairwise/em.
+        spectrum = missing_sample_spectrum(
+            frame.to_numpy(), method=args.missing, standardize=args.standardize
+        )
+        return spectrum_report(
+            spectrum.eigenvalues,
+            spectrum.n_samples,
+            spectrum.n_features,
+            standardized=spectrum.scale is not None,
+            n_observations=frame.shape[0],
+        )
+    X, standardize = frame.to_numpy(), args.standardize
+    if args.vol_half_life is not None:
+        owner = "the devolatilised series"
+        X, _, _ = devolatilise(
+            X, args.vol_half_life, sample_weight=weights, owner=owner
+        )
+        standardize = True
+    return analyze_spectrum(X, standardize=standardize, sample_weight=weights)
+
+
+def repeated_columns(frame, skip=None) -> list[tuple[int, int]]:
+    """``(j, i)`` for each column ``j`` equal to an earlier column ``i``.
+
+    Equal means the same value in every row, missing values in the same
+    rows. Columns flagged in ``skip`` (constant ones) are left out. One
+    pass over the data: columns are ordered by a random projection and only
+    neighbours with equal projections (to rounding) are compared in full.
+    """
+    import numpy as np
+
+    X = frame.to_numpy(dtype=np.float64)
+    keep = np.arange(X.shape[1]) if skip is None else np.flatnonzero(~skip)
+    if keep.size < 2:
+        return []
+    missing = np.isnan(X[:, keep])
+    values = np.where(missing, 0.0, X[:, keep])
+    weights = np.random.default_rng(0).standard_normal((2, X.shape[0]))
+    prints = weights[0] @ values + weights[1] @ missing
+    order = np.argsort(prints, kind="stable")
+    spread = np.abs(prints).max() + 1.0
+    out: dict[int, int] = {}
+    for a, b in zip(order[:-1], order[1:], strict=True):
+        if abs(prints[a] - prints[b]) > 1e-9 * spread:
+            continue
+        i, j = sorted((int(keep[a]), int(keep[b])))
+        if np.array_equal(X[:, i], X[:, j], equal_nan=True):
+            first = out.get(i, i)
+            out[j] = min(out.get(j, j), first)
+    return sorted(out.items())
 
 
 def _warn_long_half_lives(n_rows: int, args) -> None:

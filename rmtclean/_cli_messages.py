@@ -19,6 +19,7 @@ __all__ = [
     "cli_language",
     "degrees_of_freedom",
     "level_note",
+    "plural",
     "warn",
 ]
 
@@ -41,9 +42,39 @@ STEPS = {
 }
 
 
+def plural(n: int, word: str) -> str:
+    """``1 variable``, ``2 variables``."""
+    return f"{n} {word}" + ("" if n == 1 else "s")
+
+
 def warn(args, text: str) -> None:
-    """One ``rmtclean COMMAND: warning: ...`` line on standard error."""
-    print(f"rmtclean {args.command}: warning: {text}", file=sys.stderr)
+    """One ``rmtclean COMMAND: warning: ...`` line on standard error.
+
+    A rank-deficiency warning that the constant or repeated columns named
+    before fully explain is not said again (``args.known_zeros``).
+    """
+    text = _rank_words(text, getattr(args, "known_zeros", None))
+    if text:
+        print(f"rmtclean {args.command}: warning: {text}", file=sys.stderr)
+
+
+def _rank_words(text: str, known) -> str | None:
+    """``text``, or ``None`` when its zero eigenvalues are all explained.
+
+    ``known`` is ``(columns explained, columns in all)``: constant and
+    repeated columns leave ``max(0, allowed - (N - k))`` of the ``allowed``
+    sample eigenvalues at zero.
+    """
+    match = re.match(r"the data are rank deficient\b.*?(\d+) of the (\d+) ", text)
+    if not match or not known or not known[0]:
+        return text
+    n_zero, allowed = int(match.group(1)), int(match.group(2))
+    expected = max(0, allowed - (known[1] - known[0]))
+    if n_zero == expected:
+        return None
+    if expected:
+        return f"{text} ({expected} of them from the constant or repeated columns)"
+    return text
 
 
 def cli_language(message: str, columns=None, flags=None) -> str:
@@ -88,6 +119,9 @@ def cli_language(message: str, columns=None, flags=None) -> str:
     text = re.sub(
         r"(?<![-\w'])(half_life|vol_half_life)\b", lambda m: FLAGS[m.group(1)], text
     )
+    # The CLI's lines continue "error: " or "warning: " in lower case; names
+    # (TylerShrink, Marchenko-Pastur) keep theirs.
+    text = re.sub(r"^(The|No|Cannot|A|An|Got|Expected) ", _lower_word, text)
     if columns is not None:
         names = [str(c) for c in columns]
 
@@ -99,6 +133,10 @@ def cli_language(message: str, columns=None, flags=None) -> str:
         text = re.sub(r"(columns? )(\d+)\b", name, text)
         text = re.sub(r"(\band )(\d+)(?= share\b)", name, text)
     return text
+
+
+def _lower_word(match) -> str:
+    return match.group(0).lower()
 
 
 class WarningLines(warnings.catch_warnings):

@@ -23,6 +23,7 @@ from rmtclean._cli_input import (
     load_returns,
     missing_values_error,
     positive_rows,
+    spectrum_report_of,
 )
 from rmtclean._cli_messages import (
     FLAGS,
@@ -30,6 +31,7 @@ from rmtclean._cli_messages import (
     cli_language,
     degrees_of_freedom,
     level_note,
+    plural,
     warn,
 )
 from rmtclean._cli_parse import (
@@ -215,7 +217,7 @@ def _cmd_clean(args) -> int:
     where = "standard output" if target == "-" else target
     dof, divisor = degrees_of_freedom(est)
     lines = [
-        f"{args.method} on {args.data}: {T} observations of {N} variables",
+        f"{args.method} on {args.data}: {T} observations of {plural(N, 'variable')}",
         f"  degrees of freedom: {dof:.6g}  (N / dof = {N / dof:.4g})"
         + ("" if divisor == dof else f"; divisor of S: {divisor:.6g} (bias=True)"),
         f"  signal eigenvalues: {signal}",
@@ -231,39 +233,6 @@ def _cmd_clean(args) -> int:
     return 0
 
 
-def _spectrum_report(frame, args):
-    """``analyze_spectrum`` of the table, through --missing pairwise/em if asked."""
-    from rmtclean.spectrum import analyze_spectrum, spectrum_report
-    from rmtclean.volatility import devolatilise
-    from rmtclean.weights import half_life_weights
-
-    weights = None
-    if args.half_life is not None:
-        weights = half_life_weights(frame.shape[0], args.half_life)  # as clean's
-    if args.missing in ("pairwise", "em") and frame.isna().to_numpy().any():
-        from rmtclean.missing import missing_sample_spectrum
-
-        # check_missing_option has refused --half-life with pairwise/em.
-        spectrum = missing_sample_spectrum(
-            frame.to_numpy(), method=args.missing, standardize=args.standardize
-        )
-        return spectrum_report(
-            spectrum.eigenvalues,
-            spectrum.n_samples,
-            spectrum.n_features,
-            standardized=spectrum.scale is not None,
-            n_observations=frame.shape[0],
-        )
-    X, standardize = frame.to_numpy(), args.standardize
-    if args.vol_half_life is not None:
-        owner = "the devolatilised series"
-        X, _, _ = devolatilise(
-            X, args.vol_half_life, sample_weight=weights, owner=owner
-        )
-        standardize = True
-    return analyze_spectrum(X, standardize=standardize, sample_weight=weights)
-
-
 def _cmd_analyze(args) -> int:
     import json
 
@@ -273,7 +242,7 @@ def _cmd_analyze(args) -> int:
     frame = load_returns(args)
     args.columns = frame.columns
     try:
-        report = _spectrum_report(frame, args)
+        report = spectrum_report_of(frame, args)
     except (ValueError, TypeError) as exc:
         raise missing_values_error(frame, args) or exc from exc
     # The text report carries its warnings: on a terminal, say them once.
@@ -288,7 +257,7 @@ def _cmd_analyze(args) -> int:
     else:
         print(
             f"Spectrum of {args.data}: {frame.shape[0]} observations of "
-            f"{frame.shape[1]} variables\n"
+            f"{plural(frame.shape[1], 'variable')}\n"
         )
         print(report)  # the report closes with the caution
     return 0

@@ -657,15 +657,15 @@ CLI_ROWS = [
         "absent.csv",
         None,
         ["clean", "--method", "SpikeShrink"],
-        r"No such file",
+        r"error: no such file",
     ),
     (
         "ragged csv",
         "ragged.csv",
         _write_text("a,b,c\n0.1,0.2,0.3\n0.2,0.1\n0.3,0.1,0.2,0.5,0.6\n0.1,0.1,0.1\n"),
         ["clean", "--method", "SpikeShrink"],
-        r"Cannot parse '.*ragged\.csv' as a table: line 4 has 5 fields where the "
-        r"header has 3\.$",
+        r"error: cannot parse '.*ragged\.csv' as a table: line 4 has 5 fields "
+        r"where the header has 3\.$",
     ),
     (
         "truncated csv",
@@ -721,7 +721,8 @@ CLI_ROWS = [
         "flat.csv",
         _write_csv(_constant_column()),
         ["clean", "--method", "SpikeShrink", "--standardize"],
-        r"--standardize needs every column to vary.*\(first '\w+'\)",
+        r"--standardize needs every column to vary, but 1 column\(s\) of "
+        r".*flat\.csv are constant \('c3'\): remove them",
     ),
     (
         "infinite value",

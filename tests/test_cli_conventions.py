@@ -257,14 +257,77 @@ def test_zero_variance_column_named_in_error_and_warning(returns_csv, tmp_path, 
     code, _, err = _run(["analyze", const_path, "--standardize"], capsys)
     assert code == 1
     assert err.count("\n") == 1 and "'Flat'" in err and "--standardize" in err
-    assert "index" not in err
+    assert "index" not in err and "const.csv" in err
     code, _, err = _run(["clean", const_path, "--out", tmp_path / "c.csv"], capsys)
     assert code == 0, err
+    # The constant column explains the zero eigenvalue: no second warning.
+    assert "rank deficient" not in err
     lines = _warnings(err, "clean")
     assert lines and any("'Flat'" in line for line in lines)
     # Warnings are single lines without Python's source-line echo.
     assert "Warning:" not in err and "warnings.warn" not in err
     assert len(lines) == len(set(lines))
+
+
+def test_repeated_columns_are_named_once(returns_csv, tmp_path, capsys):
+    # A column saved twice under another name ('Copy' = the first column)
+    # adds a zero eigenvalue; the warning names the pair and the library's
+    # rank-deficiency warning, which it explains, is not said again.
+    path, frame = returns_csv
+    first = frame.columns[0]
+    dup = frame.assign(Copy=frame[first])
+    dup_path = tmp_path / "dup.csv"
+    dup.to_csv(dup_path)
+    for command in (["clean", dup_path, "--out", tmp_path / "c.csv"], ["analyze"]):
+        argv = command if len(command) > 1 else [*command, dup_path]
+        code, _, err = _run(argv, capsys)
+        assert code == 0, err
+        lines = _warnings(err, argv[0])
+        assert [line for line in lines if "repeat" in line] == [
+            f"rmtclean {argv[0]}: warning: 1 column(s) of {dup_path} repeat an "
+            f"earlier column ('Copy' = '{first}'): each copy adds a zero "
+            "eigenvalue to the spectrum; remove the copies to leave them out."
+        ]
+        assert not any("rank deficient" in line for line in lines), lines
+    # A second, unexplained zero (a column that is the sum of two others)
+    # keeps the warning, with the share the named copy explains.
+    both = dup.assign(Sum=frame.iloc[:, 1] + frame.iloc[:, 2])
+    both.to_csv(dup_path)
+    code, _, err = _run(["analyze", dup_path], capsys)
+    lines = [w for w in _warnings(err, "analyze") if "rank deficient" in w]
+    assert code == 0 and len(lines) == 1
+    assert "2 of the 10 sample eigenvalues" in lines[0]
+    assert lines[0].endswith("(1 of them from the constant or repeated columns)")
+
+
+def test_repeated_columns_found_among_many():
+    # Exact copies only (same values, missing values in the same rows),
+    # each reported against its first occurrence; constant columns skipped.
+    from rmtclean._cli_input import repeated_columns
+
+    rng = np.random.default_rng(5)
+    X = rng.standard_normal((40, 300))
+    X[3, 7] = np.nan
+    X[:, 250] = X[:, 7]  # NaN in the same row
+    X[:, 299] = X[:, 7]
+    X[:, 100] = X[:, 50]
+    X[:, 101] = X[:, 50] * (1 + 1e-15)  # not an exact copy
+    X[:, 102] = X[:, 50]
+    X[5, 102] = np.nan  # a hole where column 50 has a value: not a copy
+    X[:, [20, 21]] = 0.5  # constant: the constant warning's business
+    frame = pd.DataFrame(X)
+    skip = (frame.nunique() <= 1).to_numpy()
+    assert repeated_columns(frame, skip=skip) == [(100, 50), (250, 7), (299, 7)]
+    assert repeated_columns(frame.iloc[:, :3]) == []
+
+
+def test_counts_of_one_are_singular(tmp_path, capsys):
+    path = tmp_path / "one.csv"
+    pd.DataFrame({"a": np.random.default_rng(1).standard_normal(30)}).to_csv(
+        path, index=False
+    )
+    code, out, err = _run(["clean", path, "--out", tmp_path / "c.csv"], capsys)
+    assert code == 0 and "30 observations of 1 variable\n" in out, err
 
 
 def test_bad_files_are_refused_in_the_words_of_the_command(
@@ -279,7 +342,7 @@ def test_bad_files_are_refused_in_the_words_of_the_command(
     png.write_bytes(b"\x89PNG\r\n\x1a\n" + bytes(range(256)))
     code, _, err = _run(["analyze", png], capsys)
     assert code == 1 and err.count("\n") == 1
-    assert "Cannot read" in err and "image.csv" in err and "UTF-8" in err
+    assert "error: cannot read" in err and "image.csv" in err and "UTF-8" in err
     inf = tmp_path / "inf.csv"
     frame.assign(**{frame.columns[2]: np.r_[np.inf, frame.iloc[1:, 2]]}).to_csv(inf)
     code, _, err = _run(["clean", inf, "--out", tmp_path / "c.csv"], capsys)

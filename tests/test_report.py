@@ -202,7 +202,10 @@ def test_report_says_rank_deficiency_as_the_estimators_do():
     report = analyze_spectrum(X)
     words = report.warnings[0]
     assert words.startswith("the data are rank deficient beyond what the sample")
-    assert f"4 of the {X.shape[0] - 1} sample eigenvalues it allows are zero" in words
+    assert (
+        f"4 of the {X.shape[0] - 1} sample eigenvalues that can be nonzero are zero"
+        in words
+    )
     with pytest.warns(RankDeficientWarning) as caught:
         KernelShrink().fit(X)
     assert str(caught[0].message) == f"KernelShrink.fit: {words}"

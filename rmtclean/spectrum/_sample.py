@@ -366,7 +366,7 @@ def rank_deficiency(spectrum: SampleSpectrum) -> str | None:
         return None
     return (
         f"the data are rank deficient beyond what the sample size explains: "
-        f"{n_zero} of the {vals.size} sample eigenvalues it allows are zero "
+        f"{n_zero} of the {vals.size} sample eigenvalues that can be nonzero are zero "
         "(duplicated or collinear columns, or repeated rows); the cleaned "
         "spectrum treats them as noise."
     )
