@@ -192,15 +192,20 @@ def repeated_columns(frame, skip=None) -> list[tuple[int, int]]:
     weights = np.random.default_rng(0).standard_normal((2, X.shape[0]))
     prints = weights[0] @ values + weights[1] @ missing
     order = np.argsort(prints, kind="stable")
-    spread = np.abs(prints).max() + 1.0
+    close = np.diff(prints[order]) <= 1e-9 * (np.abs(prints).max() + 1.0)
+    # Runs of equal projections; within a run each column is compared with
+    # the run's distinct columns so far, in column order (first occurrence).
+    runs = np.split(order, np.flatnonzero(~close) + 1)
     out: dict[int, int] = {}
-    for a, b in zip(order[:-1], order[1:], strict=True):
-        if abs(prints[a] - prints[b]) > 1e-9 * spread:
-            continue
-        i, j = sorted((int(keep[a]), int(keep[b])))
-        if np.array_equal(X[:, i], X[:, j], equal_nan=True):
-            first = out.get(i, i)
-            out[j] = min(out.get(j, j), first)
+    for run in runs:
+        distinct: list[int] = []
+        for j in sorted(int(keep[k]) for k in run):
+            same = (i for i in distinct if np.array_equal(X[:, i], X[:, j], True))
+            i = next(same, None)
+            if i is None:
+                distinct.append(j)
+            else:
+                out[j] = i
     return sorted(out.items())
 
 

@@ -319,6 +319,9 @@ def test_repeated_columns_found_among_many():
     skip = (frame.nunique() <= 1).to_numpy()
     assert repeated_columns(frame, skip=skip) == [(100, 50), (250, 7), (299, 7)]
     assert repeated_columns(frame.iloc[:, :3]) == []
+    # Three copies around a distinct column: each later one against the first.
+    copies = pd.DataFrame(X[:, [0, 1, 0, 0]])
+    assert repeated_columns(copies) == [(2, 0), (3, 0)]
 
 
 def test_counts_of_one_are_singular(tmp_path, capsys):
