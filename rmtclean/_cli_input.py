@@ -82,6 +82,7 @@ def load_returns(args):
         _refuse_if_transposed(frame, args)
     extra = 1 if args.from_prices else 0
     frame = numeric_matrix(frame, min_rows=MIN_ROWS + extra, source=source)
+    frame = _oldest_first(frame, args)
     observed = frame.count()
     sparse = frame.columns[observed < 2]
     if sparse.size:  # no --missing method can give these a variance
@@ -171,6 +172,107 @@ def spectrum_report_of(frame, args):
         )
         standardize = True
     return analyze_spectrum(X, standardize=standardize, sample_weight=weights)
+
+
+#: Date formats of row labels: vectorised parsing, both day/month orders.
+_DATE_FORMATS = (
+    "ISO8601",
+    "%Y%m%d",
+    "%m/%d/%Y",
+    "%d/%m/%Y",
+    "%m/%d/%y",
+    "%d/%m/%y",
+    "%d.%m.%Y",
+    "%d-%m-%Y",
+    "%m-%d-%Y",
+    "%Y/%m/%d",
+)
+
+
+def _row_dates(index) -> list:
+    """The readings of the row labels as dates (each label read; may be []).
+
+    A label such as ``03/04/2024`` reads both month first and day first;
+    each format that reads every label is one reading. Two-digit years are
+    put in the past (no row of data is dated in the future: ``1/2/70`` is
+    1970, not 2070).
+    """
+    import numpy as np
+    import pandas as pd
+
+    if isinstance(index, pd.DatetimeIndex):
+        return [] if index.hasnans else [index]
+    if index.size < 2 or not all(isinstance(label, str) for label in index):
+        return []
+    labels = pd.Series(np.asarray(index, dtype=object)).str.strip()
+    now = pd.Timestamp.now() + pd.Timedelta(days=1)
+    readings = []
+    for fmt in _DATE_FORMATS:
+        try:  # a few labels first: most formats fail fast
+            if pd.to_datetime(labels[:20], format=fmt, errors="coerce").hasnans:
+                continue
+            dates = pd.to_datetime(labels, format=fmt, errors="coerce")
+        except (ValueError, TypeError):  # mixed time zones and the like
+            continue
+        if dates.isna().any():
+            continue
+        if dates.dt.tz is not None:
+            dates = dates.dt.tz_convert(None)
+        future = dates > now
+        if future.any():
+            dates = dates.mask(future, dates - pd.DateOffset(years=100))
+        readings.append(pd.DatetimeIndex(dates))
+    return readings
+
+
+def _order_flags(args) -> list[str]:
+    """The options used that read the rows as a time series, oldest first."""
+    used = ["--from-prices"] if args.from_prices else []
+    return used + [
+        FLAGS[name]
+        for name in ("half_life", "vol_half_life")
+        if getattr(args, name, None) is not None
+    ]
+
+
+def _oldest_first(frame, args):
+    """Rows dated newest first are turned round; rows out of date order refused.
+
+    Order matters to --from-prices (a return is this row over the one
+    before), --half-life (the last row weighs most) and --vol-half-life (the
+    volatility of the rows before). A file saved newest first (as many
+    downloads are) is read oldest first, with a warning when one of these is
+    used; a file whose dates jump back and forth is refused when one is.
+    Rows whose labels are not dates (or not all in one known format) are
+    taken in file order.
+    """
+    import numpy as np
+
+    readings = _row_dates(frame.index)
+    if not readings:
+        return frame
+    steps = [np.diff(dates.asi8) for dates in readings]
+    if any(np.all(step > 0) for step in steps):
+        return frame
+    flags = _order_flags(args)
+    if any(np.all(step < 0) for step in steps):
+        if flags:
+            warn(
+                args,
+                f"the rows of {args.data} run newest first ({frame.index[0]} "
+                f"down to {frame.index[-1]}): they are read oldest first, as "
+                f"{' and '.join(flags)} {'needs' if len(flags) == 1 else 'need'}.",
+            )
+        return frame.iloc[::-1]
+    if not flags:
+        return frame
+    back = int(np.flatnonzero(steps[0] <= 0)[0])
+    raise ValueError(
+        f"the rows of {args.data} are not in date order (row "
+        f"{frame.index[back + 1]} comes after {frame.index[back]}), but "
+        f"{' and '.join(flags)} read the rows as a time series: sort the file "
+        "by date, oldest first."
+    )
 
 
 def repeated_columns(frame, skip=None) -> list[tuple[int, int]]:
