@@ -225,9 +225,11 @@ def _fit_warnings(fit, ratio, n_signal, n_features, n_samples, level):
     if ratio < LONG_SAMPLE_RATIO:
         return [
             f"{head}: with {n_samples / n_features:.0f} observations per "
-            "variable the population spectrum shows through, so the sample "
-            "covariance is already close to it and cleaning changes little; "
-            f"the signal count ({n_signal}) is not meaningful."
+            "variable the population spectrum shows through and the sample "
+            f"covariance is already close to it: the signal count ({n_signal}) "
+            "is not meaningful; nonlinear shrinkage (KernelShrink) changes the "
+            "estimate little, while cleaners that flatten the spectrum below "
+            "that count (EigenClip, SpikeShrink) discard real structure."
         ]
     return [
         f"{head}: the noise is not white (heavy tails, correlated noise or a "
