@@ -31,6 +31,7 @@ FLAGS = {
     "missing": "--missing",
     "standardize": "--standardize",
     "random_state": "--seed",
+    "scale_estimate": "--sample-level",
 }
 
 
@@ -179,20 +180,24 @@ def degrees_of_freedom(est) -> tuple[float, float]:
     return (divisor - 1.0 if biased else divisor), divisor
 
 
-def level_note(est, matrix, frame) -> str | None:
+def level_note(est) -> str | None:
     """What a robust variance level does to the written covariance, if used.
 
     TylerShrink's default level is that of the Gaussian law with the same
     median row norm: with heavy tails it lies below the variance (daily
-    returns: about 0.6 of it), which a risk forecast must know.
+    returns: about 0.6 of it), which a risk forecast must know. The ratio is
+    that of the cleaned to the sample eigenvalues, in the space cleaned (the
+    correlation under --standardize or --vol-half-life), as on the figure.
     """
     if getattr(est, "scale_estimate", None) != "robust":
         return None
-    import numpy as np
-
-    ratio = float(np.trace(matrix.to_numpy())) / float(frame.var(ddof=1).sum())
+    ratio = float(est.eigenvalues_.sum() / est.sample_eigenvalues_.sum())
+    why = (
+        ": with heavy tails the robust level lies below the variance"
+        if ratio < 1.0
+        else ""
+    )
     return (
-        f"variance level: robust (median row norm), {ratio:.2f} times the sum of "
-        "the sample variances; with heavy tails it lies below the variance (in "
-        "Python, TylerShrink(scale_estimate='sample') keeps the sample's level)"
+        f"variance level: robust (median row norm), {ratio:.2f} times the "
+        f"sample's{why}; --sample-level keeps the sample's level"
     )

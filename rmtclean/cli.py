@@ -101,6 +101,8 @@ def _build_estimator(args):
         wanted["missing"] = args.missing
     if "random_state" in params:
         wanted["random_state"] = args.seed
+    if getattr(args, "sample_level", False):
+        wanted["scale_estimate"] = "sample"
     for name, value in wanted.items():
         if name not in params and value not in (False, None):
             raise ValueError(
@@ -223,7 +225,7 @@ def _cmd_clean(args) -> int:
         f"  signal eigenvalues: {signal}",
         f"  cleaned {kind}: written to {where}",
     ]
-    if kind == "covariance" and (note := level_note(est, matrix, frame)):
+    if kind == "covariance" and (note := level_note(est)):
         lines.insert(-1, f"  {note}")
     if hasattr(est, "describe_choice"):  # AutoShrink says what it chose
         lines.insert(3, f"  {est.describe_choice()}")
@@ -345,6 +347,13 @@ def _add_clean_arguments(clean) -> None:
     )
     clean.add_argument(
         "--seed", type=int, default=0, help="seed of randomised cleaners (default 0)"
+    )
+    clean.add_argument(
+        "--sample-level",
+        action="store_true",
+        help="--method tyler: scale the robust shape to the sample's mean "
+        "variance (default: a robust level from the median row norm, below "
+        "the variance with heavy tails)",
     )
     clean.set_defaults(func=_cmd_clean)
 

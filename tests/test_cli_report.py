@@ -226,8 +226,27 @@ def test_clean_says_a_robust_variance_level(long_panel, tmp_path, capsys, method
     matrix = pd.read_csv(out, index_col=0).to_numpy()
     ratio = np.trace(matrix) / frame.var(ddof=1).sum()
     if method == "tyler":
-        assert f"variance level: robust (median row norm), {ratio:.2f} times" in stdout
+        note = f"variance level: robust (median row norm), {ratio:.2f} times"
+        assert note in stdout
+        assert "lies below the variance; --sample-level keeps" in stdout
         assert ratio < 0.8
     else:
         assert "variance level" not in stdout
         assert ratio == pytest.approx(1.0, rel=0.02)
+
+
+def test_sample_level_keeps_the_sample_variance(long_panel, tmp_path, capsys):
+    # --sample-level: TylerShrink(scale_estimate="sample"), whose trace is
+    # that of the sample covariance tr(S) (ddof 1, numpy's np.cov); the
+    # other methods refuse the flag, whose level they keep anyway.
+    path, frame = long_panel
+    out = tmp_path / "cov.csv"
+    argv = ["clean", path, "--method", "tyler", "--sample-level", "--out", out]
+    code, stdout, err = _run(argv, capsys)
+    assert code == 0, err
+    matrix = pd.read_csv(out, index_col=0).to_numpy()
+    assert np.trace(matrix) == pytest.approx(frame.var(ddof=1).sum(), rel=1e-10)
+    assert "variance level" not in stdout
+    code, _, err = _run(["clean", path, "--sample-level"], capsys)
+    assert code == 1
+    assert "--sample-level: --method kernel does not take it" in err
