@@ -52,11 +52,14 @@ def warn(args, text: str) -> None:
     """One ``rmtclean COMMAND: warning: ...`` line on standard error.
 
     A rank-deficiency warning that the constant or repeated columns named
-    before fully explain is not said again (``args.known_zeros``).
+    before fully explain is not said again (``args.known_zeros``). When
+    ``args.said`` is a list, the text is appended to it too.
     """
     text = _rank_words(text, getattr(args, "known_zeros", None))
     if text:
         print(f"rmtclean {args.command}: warning: {text}", file=sys.stderr)
+        if isinstance(getattr(args, "said", None), list):  # analyze --json
+            args.said.append(text)
 
 
 def _rank_words(text: str, known) -> str | None:

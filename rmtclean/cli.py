@@ -241,6 +241,7 @@ def _cmd_analyze(args) -> int:
     from rmtclean.demo import CAUTION
 
     check_missing_option(args)
+    args.said = []  # every warning line, for --json
     frame = load_returns(args)
     args.columns = frame.columns
     try:
@@ -254,7 +255,9 @@ def _cmd_analyze(args) -> int:
     if args.json:
         # One flat object: the report's own keys and types (README, "JSON
         # output of analyze"), the file name and the caution.
+        # Its warnings are every line said on stderr: the input's first.
         payload = {"data": str(args.data), **report.to_dict(), "caution": CAUTION}
+        payload["warnings"] = list(args.said)
         print(json.dumps(payload, indent=2, default=_json_default))
     else:
         print(

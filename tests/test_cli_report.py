@@ -15,7 +15,7 @@ import pytest
 
 from rmtclean.estimators import CLEANERS, KernelShrink
 from rmtclean.spectrum import analyze_spectrum
-from rmtclean.weights import exponential_weights, kish_weights
+from rmtclean.weights import exponential_weights, half_life_weights, kish_weights
 from tests._opendata import industry_returns
 from tests.test_cli import _run
 
@@ -26,6 +26,30 @@ def long_panel(tmp_path_factory):
     path = tmp_path_factory.mktemp("panel") / "industries.csv"
     frame.to_csv(path)
     return path, frame
+
+
+def test_analyze_json_carries_the_input_warnings(long_panel, tmp_path, capsys):
+    # The last 400 days of the industries, saved newest first with three
+    # cells emptied: --missing drop and the row order are said on stderr, and
+    # the JSON's "warnings" holds the same lines, the input's first.
+    _, frame = long_panel
+    part = frame.iloc[-400:].copy()
+    part.iloc[[5, 50, 90], 3] = np.nan
+    path = tmp_path / "newest_first.csv"
+    part.iloc[::-1].to_csv(path)
+    argv = ["analyze", path, "--json", "--missing", "drop", "--half-life", "100"]
+    code, out, err = _run(argv, capsys)
+    assert code == 0, err
+    said = [line.split("warning: ", 1)[1] for line in err.strip().splitlines()]
+    warnings = json.loads(out)["warnings"]
+    assert warnings == said
+    assert "newest first" in warnings[0]
+    assert warnings[1].startswith("--missing drop: dropped 3 of 400 rows")
+    # then the report's own, as Python gives them on the rows read
+    kept = part.dropna().to_numpy()
+    weights = half_life_weights(kept.shape[0], 100)
+    report = analyze_spectrum(kept, sample_weight=weights)
+    assert warnings[2:] == list(report.warnings)
 
 
 @pytest.mark.parametrize("standardize", [False, True])
