@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import argparse
 
-from rmtclean._cli_messages import FLAGS, warn
+from rmtclean._cli_messages import FLAGS, plural, warn
 
 __all__ = [
     "MIN_ROWS",
@@ -126,7 +126,8 @@ def load_returns(args):
             ),
         )
     if args.from_prices:
-        frame = prices_to_returns(frame)
+        args.missing_prices = _missing_summary(frame)  # the file's own cells
+        frame = prices_to_returns(frame, source=source)
     elif not args.assume_returns and looks_like_prices(frame.to_numpy()):
         import numpy as np
 
@@ -381,9 +382,13 @@ def missing_values_error(frame, args) -> ValueError | None:
     n_missing, n_columns, where = _missing_summary(frame)
     if not n_missing:
         return None
+    returns = ""
+    if getattr(args, "missing_prices", None):  # count the cells of the file
+        returns = f" ({plural(n_missing, 'missing return')} after --from-prices)"
+        n_missing, n_columns, where = args.missing_prices
     return ValueError(
         f"{_source(args)} has {n_missing} missing value(s) in {n_columns} "
-        f"column(s) ({where}); pass {_missing_choices(args)}."
+        f"column(s) ({where}){returns}; pass {_missing_choices(args)}."
     )
 
 
@@ -406,9 +411,10 @@ def _handle_missing(frame, args):
             "needed: try --missing pairwise or --missing em."
         )
     _, _, where = _missing_summary(frame)
+    rows = "rows of returns" if args.from_prices else "rows"
     warn(
         args,
         f"--missing drop: dropped {frame.shape[0] - kept.shape[0]} of "
-        f"{frame.shape[0]} rows with missing values ({where}).",
+        f"{frame.shape[0]} {rows} with missing values ({where}).",
     )
     return kept

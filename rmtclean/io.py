@@ -227,6 +227,94 @@ def _first_names(names, most: int = 3) -> str:
     return ", ".join(repr(name) for name in names[:most]) + more
 
 
+def _ordinal(n: int) -> str:
+    """``1st``, ``2nd``, ``3rd``, ``4th``, ``11th``, ``21st`` ..."""
+    if n % 100 in (11, 12, 13):
+        return f"{n}th"
+    return f"{n}{ {1: 'st', 2: 'nd', 3: 'rd'}.get(n % 10, 'th') }"
+
+
+def _row_name(index, position: int) -> str:
+    """``row '2024-01-03'`` by its label, or ``3rd row`` when rows are unlabelled.
+
+    Unlabelled rows (the default ``0, 1, ...`` index, as a file without a
+    label column is read) are counted from 1, as a reader of the file counts.
+    """
+    import pandas as pd
+
+    default = (
+        isinstance(index, pd.RangeIndex)
+        and index.start == 0
+        and index.step == 1
+        and index.name is None
+    )
+    if default:
+        return f"{_ordinal(position + 1)} row"
+    label = index[position]
+    if isinstance(label, pd.Timestamp) and label == label.normalize():
+        label = label.date()  # 2024-01-03, not 2024-01-03 00:00:00
+    return f"row {str(label)!r}"
+
+
+def _cell_name(frame, row: int, col: int, value) -> str:
+    """``column 'Food', row '2024-01-03', value -0.012``: one cell, for messages."""
+    row, col = int(row), int(col)
+    return (
+        f"column {str(frame.columns[col])!r}, {_row_name(frame.index, row)}, "
+        f"value {value}"
+    )
+
+
+# A number written with a decimal comma ("1,5", "-0,012", "2,5e-3"), and one
+# that a comma may split into thousands instead ("1,234", "12,345,678").
+_DECIMAL_COMMA = re.compile(r"[+-]?\d*,\d+(?:[eE][+-]?\d+)?")
+_THOUSANDS = re.compile(r"[+-]?[1-9]\d{0,2}(?:,\d{3})+")
+
+
+def _first_text_cell(frame, positions) -> tuple[int, int, object] | None:
+    """``(row, column, raw value)`` of the first cell not a number.
+
+    The columns at ``positions`` are searched in order, each from its first
+    row; a bool column's first value counts. ``None`` when every cell reads
+    as a number (numbers stored as text).
+    """
+    import pandas as pd
+
+    for col in positions:
+        series = frame.iloc[:, col]
+        if pd.api.types.is_bool_dtype(series):
+            bad = series.notna().to_numpy()
+        else:
+            numbers = pd.to_numeric(series, errors="coerce")
+            bad = (numbers.isna() & series.notna()).to_numpy()
+        if bad.any():
+            row = int(np.flatnonzero(bad)[0])
+            value = series.iloc[row]
+            return row, col, value.item() if isinstance(value, np.generic) else value
+    return None
+
+
+def _text_hint(value) -> str:
+    """What to do about a cell holding ``value``, a text that is not a number."""
+    text = str(value).strip()
+    if _THOUSANDS.fullmatch(text):
+        return (
+            "if the comma is a decimal comma, save the file with semicolons as "
+            "separators (commas in the numbers are then read as decimal commas), "
+            "and if it groups thousands, save the numbers without it"
+        )
+    if _DECIMAL_COMMA.fullmatch(text):
+        return (
+            "it looks like a decimal comma: save the file with semicolons as "
+            "separators (commas in the numbers are then read as decimal "
+            "commas), or write the numbers with decimal points"
+        )
+    return (
+        "every cell must be a number, or empty for a missing value (an index "
+        "column of labels is detected when it comes first)"
+    )
+
+
 def numeric_matrix(frame, *, min_rows: int = 2, source: str = "the data"):
     """Check that every column of ``frame`` is numeric; return it as float64.
 
@@ -246,9 +334,10 @@ def numeric_matrix(frame, *, min_rows: int = 2, source: str = "the data"):
     Raises
     ------
     ValueError
-        Naming the first non-numeric columns or the columns holding infinite
-        values, or the number of rows when
-        there are fewer than ``min_rows``.
+        Naming the first non-numeric columns and the first cell in them that
+        is not a number (its column, row label and value, with a hint for a
+        decimal comma), the columns holding infinite values, or the number of
+        rows when there are fewer than ``min_rows``.
 
     Examples
     --------
@@ -267,10 +356,17 @@ def numeric_matrix(frame, *, min_rows: int = 2, source: str = "the data"):
     ]
     if bad:
         shown = _first_names(bad)
+        positions = [j for j, c in enumerate(frame.columns) if str(c) in bad]
+        first = _first_text_cell(frame, positions)
+        if first is None:  # every cell reads as a number, stored as text
+            raise ValueError(
+                f"{source} has {len(bad)} non-numeric column(s): {shown}, whose "
+                "values are numbers stored as text: store them as numbers."
+            )
+        row, col, value = first
         raise ValueError(
-            f"{source} has {len(bad)} non-numeric column(s): {shown}. Every "
-            "column must be a numeric variable (an index column of labels is "
-            "detected when it comes first)."
+            f"{source} has {len(bad)} non-numeric column(s): {shown} (first: "
+            f"{_cell_name(frame, row, col, repr(value))}); {_text_hint(value)}."
         )
     # Complex columns count as numeric to pandas; casting would drop the
     # imaginary parts silently.
@@ -387,13 +483,16 @@ def looks_like_prices(X) -> bool:
     return bool(ratio.size and np.median(ratio) < PRICE_RATIO_THRESHOLD)
 
 
-def prices_to_returns(prices):
+def prices_to_returns(prices, *, source: str = "the data"):
     """Log returns ``log(p_t / p_{t-1})`` of a price table (first row dropped).
 
     Parameters
     ----------
     prices : pandas.DataFrame
-        Positive prices, rows in time order.
+        Positive prices, rows in time order; NaN marks a missing price.
+    source : str, default="the data"
+        Name of the input, for messages (the command line passes
+        ``DATA 'prices.csv'``).
 
     Returns
     -------
@@ -403,7 +502,10 @@ def prices_to_returns(prices):
     Raises
     ------
     ValueError
-        If a price is zero or negative.
+        If a price is zero or negative, naming ``source``, how many such
+        values there are and the first of them (column, row and value).
+        Negative values suggest the data hold returns already; a zero, a
+        missing price written as 0.
 
     Examples
     --------
@@ -414,11 +516,25 @@ def prices_to_returns(prices):
     [0.09531, -0.105361]
     """
     values = prices.to_numpy(dtype=np.float64)
-    finite = values[np.isfinite(values)]
-    if np.any(finite <= 0):
+    finite = np.isfinite(values)
+    negative = finite & (values < 0)
+    zero = finite & (values == 0)
+    if negative.any():
+        row, col = np.argwhere(negative)[0]  # the first in time order
+        cell = _cell_name(prices, row, col, f"{values[row, col]:.6g}")
         raise ValueError(
-            "Prices must be positive to convert to log returns; got a minimum "
-            f"of {float(finite.min())!r}."
+            f"{source} has {int(negative.sum())} negative value(s) (first: "
+            f"{cell}): prices must be positive, so these seem to be returns "
+            "already: use them as they are, without converting them (on the "
+            "command line, leave out --from-prices)."
+        )
+    if zero.any():
+        row, col = np.argwhere(zero)[0]
+        cell = _cell_name(prices, row, col, "0")
+        raise ValueError(
+            f"{source} has {int(zero.sum())} price(s) of 0 (first: {cell}): a "
+            "price must be positive to take its log return; if 0 marks a "
+            "missing price, leave the cell empty (NaN) instead."
         )
     logs = np.log(values)
     out = prices.iloc[1:].copy().astype(np.float64)
