@@ -127,7 +127,16 @@ def _run_draw_cells(config, cells, specs) -> list[dict]:
         with warnings.catch_warnings(record=True) as caught:
             warnings.simplefilter("always")
             try:
-                row.update(_run_cell(config, specs[cell["cleaner"]], truth, X, X_test))
+                row.update(
+                    _run_cell(
+                        config,
+                        specs[cell["cleaner"]],
+                        truth,
+                        X,
+                        X_test,
+                        measure_memory=_measures_memory(config, cell["rep"]),
+                    )
+                )
             except Exception as exc:  # a failing cleaner must not stop the grid
                 row["status"] = f"error: {type(exc).__name__}: {exc}"[:300]
         if caught:  # kept in the results instead of flooding the terminal
@@ -137,7 +146,16 @@ def _run_draw_cells(config, cells, specs) -> list[dict]:
     return rows
 
 
-def _run_cell(config, spec: CleanerSpec, truth, X, X_test) -> dict:
+def _measures_memory(config: BenchConfig, rep: int) -> bool:
+    """Whether the cells of repetition ``rep`` get a traced memory refit."""
+    if not config.measure_memory:
+        return False
+    return config.memory_repeats is None or rep < config.memory_repeats
+
+
+def _run_cell(
+    config, spec: CleanerSpec, truth, X, X_test, *, measure_memory: bool = True
+) -> dict:
     if spec.factory is None:  # the oracle: computed from the truth
         estimate = oracle_covariance(X, truth.covariance)
         return _evaluate(estimate, truth, X_test, X.mean(axis=0))
@@ -153,7 +171,7 @@ def _run_cell(config, spec: CleanerSpec, truth, X, X_test) -> dict:
     seconds = time.perf_counter() - start
     out = _evaluate(_dense_covariance(est), truth, X_test, est.location_)
     out["fit_seconds"] = seconds
-    if config.measure_memory:
+    if measure_memory:
         out["peak_mib"] = _peak_mib(lambda: clone(prototype).fit(X))
     return out
 
@@ -254,7 +272,8 @@ def run_benchmark(
     wall-clock time of one ``fit`` (after an untimed first fit per process
     that pays for JIT compilation) and the peak memory that
     :mod:`tracemalloc` sees during a second fit (numpy buffers; memory that
-    BLAS/LAPACK allocate internally is not traced). A singular estimate
+    BLAS/LAPACK allocate internally is not traced; NaN on the repetitions
+    ``config.memory_repeats`` leaves out). A singular estimate
     (the sample covariance when N >= T - 1) has infinite Stein and
     minimum-variance losses and condition number, and log-likelihood -inf.
     A cleaner that raises gets ``status = "error: ..."`` and NaN metrics.

@@ -80,7 +80,9 @@ def summarize(rows: Iterable[Mapping]) -> list[dict]:
     draws, :math:`100\\,\\mathrm{sd}(a_r - R b_r)/(\\sqrt{n}\\,\\bar b)` with
     :math:`a_r = L_S - L_{\\hat\\Sigma}`, :math:`b_r = L_S - L_{S^*}`. It is
     NaN where a mean loss is infinite (e.g. the minimum-variance loss of a
-    singular sample covariance).
+    singular sample covariance). ``peak_mib`` is averaged over the
+    repetitions where it was measured (see ``BenchConfig.memory_repeats``);
+    from one repetition its standard error is NaN.
     """
     groups: dict[tuple, list[dict]] = {}
     for row in rows:
@@ -106,7 +108,10 @@ def summarize(rows: Iterable[Mapping]) -> list[dict]:
                 "n_errors": len(crow) - len(ok),
             }
             for metric in METRICS:
-                entry[metric], entry[metric + "_se"] = _mean_se([r[metric] for r in ok])
+                values = [r[metric] for r in ok]
+                if metric == "peak_mib":  # NaN: not measured on that draw
+                    values = [v for v in values if not math.isnan(v)]
+                entry[metric], entry[metric + "_se"] = _mean_se(values)
             entry["prial"], entry["prial_se"] = _prial_of(ok, by_rep, "frobenius")
             entry["prial_mv"], entry["prial_mv_se"] = _prial_of(
                 ok, by_rep, "min_variance"

@@ -34,9 +34,11 @@ _COMMON_DOC = """
         If True, the data are not demeaned and the sample covariance uses
         ``T`` degrees of freedom instead of ``T - 1``.
     standardize : bool, default=False
-        Clean the correlation matrix, then restore the variances:
-        ``covariance_ = D R D`` with ``D`` the column standard deviations
-        and ``R`` the cleaned correlation.
+        Clean the correlation matrix, then scale it back by the sample
+        standard deviations: ``covariance_ = D R D`` with ``D`` their
+        diagonal matrix and ``R`` the cleaned correlation. The diagonal of
+        ``R`` is near one, not exactly one, so the variances are near the
+        sample's rather than equal to them.
     route : {"auto", "dense", "gram"}, default="auto"
         How the sample spectrum is computed: ``"dense"`` forms the N x N
         sample covariance and calls ``eigh``; ``"gram"`` diagonalises the
