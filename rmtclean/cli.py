@@ -137,6 +137,8 @@ def _estimator_report(est, frame, args):
 
 
 def _report_figure(est, report, frame, args):
+    import numpy as np
+
     from rmtclean.plotting import panel_grid, plot_report, plot_shrinkage
 
     n_features = frame.shape[1]
@@ -150,6 +152,14 @@ def _report_figure(est, report, frame, args):
         f"dof={dof:.4g})",
     )
     label = args.method
+    if hasattr(est, "describe_choice"):  # AutoShrink: the cleaner it chose
+        n_used = int(np.count_nonzero(est.weights_ > 0))
+        chosen = (
+            f"blend of {n_used}"
+            if est.blend_score_ is not None
+            else type(est.best_estimator_).__name__
+        )
+        label += f" (chose {chosen})"
     if getattr(est, "scale_estimate", None) == "robust":  # said on the curve
         level = est.eigenvalues_.sum() / est.sample_eigenvalues_.sum()
         label += f" (robust level: {level:.2f} of the sample's)"

@@ -237,6 +237,29 @@ def test_report_figure_carries_the_caution(long_panel):
     assert CAUTION in texts
 
 
+@pytest.mark.parametrize("combine", ["select", "blend"])
+def test_report_figure_names_what_auto_chose(long_panel, combine):
+    # With --method auto the curve of the figure names the cleaner chosen
+    # (or the blend), as the summary line does: "auto" alone says nothing.
+    from types import SimpleNamespace
+
+    from rmtclean.cli import _estimator_report, _report_figure
+    from rmtclean.estimators import AutoShrink
+
+    _, frame = long_panel
+    frame = frame.iloc[-500:]
+    est = AutoShrink(combine=combine).fit(frame.to_numpy())
+    args = SimpleNamespace(standardize=False, method="auto")
+    fig = _report_figure(est, _estimator_report(est, frame, args), frame, args)
+    labels = [line.get_label() for line in fig.axes[1].lines]
+    if combine == "select":
+        chosen = type(est.best_estimator_).__name__
+        assert chosen in est.describe_choice()
+    else:
+        chosen = f"blend of {np.count_nonzero(est.weights_ > 0)}"
+    assert f"auto (chose {chosen})" in labels
+
+
 @pytest.mark.parametrize("method", ["tyler", "kernel"])
 def test_clean_says_a_robust_variance_level(long_panel, tmp_path, capsys, method):
     # TylerShrink's default level (median row norm) is that of a Gaussian law:
