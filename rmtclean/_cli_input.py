@@ -25,6 +25,9 @@ __all__ = [
 MIN_ROWS = 3
 # Share of column names reading as dates above which a file looks transposed.
 _DATE_HEADER_SHARE = 0.8
+# Rows per column from which rows labelled by names (not dates) look like
+# variables: an expression table saved genes by samples, as most are.
+_NAMED_ROWS_PER_COLUMN = 2
 
 
 def positive_rows(text: str) -> float:
@@ -63,6 +66,35 @@ def _refuse_if_transposed(frame, args) -> None:
         )
 
 
+def _say_if_rows_look_like_variables(frame, args) -> None:
+    """Warn when rows labelled by names outnumber the columns.
+
+    Expression tables are mostly saved one gene per row, one sample per
+    column; read as they stand they give the covariance of the samples. Rows
+    labelled by dates (a returns panel) or by nothing are left alone.
+    """
+    from rmtclean.io import _first_names, date_like_labels
+
+    n_rows, n_columns = frame.shape
+    if n_columns < 3 or n_rows < _NAMED_ROWS_PER_COLUMN * n_columns:
+        return
+    labels = frame.index
+    names = [x for x in labels if isinstance(x, str)]
+    if len(names) < _DATE_HEADER_SHARE * n_rows or not labels.is_unique:
+        return
+    if date_like_labels(names) > (1 - _DATE_HEADER_SHARE) * len(names):
+        return
+    warn(
+        args,
+        f"the {n_rows} rows of {args.data} are labelled by names, not dates "
+        f"({_first_names(labels)}), and outnumber its {n_columns} columns "
+        f"({_first_names(frame.columns)}): if each row is a variable (a gene, "
+        "an asset) and each column an observation, pass --transpose; as read, "
+        f"the rows are the observations and the matrix is {n_columns} x "
+        f"{n_columns}, of the columns.",
+    )
+
+
 def load_returns(args):
     """The returns table of ``args.data``: read, checked, prices handled."""
     from rmtclean.io import (
@@ -82,6 +114,8 @@ def load_returns(args):
         _refuse_if_transposed(frame, args)
     extra = 1 if args.from_prices else 0
     frame = numeric_matrix(frame, min_rows=MIN_ROWS + extra, source=source)
+    if not args.transpose:
+        _say_if_rows_look_like_variables(frame, args)
     frame = _oldest_first(frame, args)
     observed = frame.count()
     sparse = frame.columns[observed < 2]

