@@ -19,6 +19,7 @@ __all__ = [
     "cli_language",
     "degrees_of_freedom",
     "level_note",
+    "split_note",
     "variance_note",
     "plural",
     "warn",
@@ -33,6 +34,7 @@ FLAGS = {
     "standardize": "--standardize",
     "random_state": "--seed",
     "scale_estimate": "--sample-level",
+    "n_splits": "--splits",
 }
 
 
@@ -257,4 +259,28 @@ def variance_note(est, matrix, frame, args) -> str | None:
         f"factor {spread:.3g} and the cleaner pulls the eigenvalues together; "
         "--standardize --kind covariance cleans the correlation and scales "
         "it back by the sample standard deviations."
+    )
+
+
+def split_note(est) -> str | None:
+    """How much another --seed would move a SplitShrink fit (or AutoShrink's).
+
+    Two seeds give fits about ``sqrt(2)`` times ``split_error_`` apart
+    (relative Frobenius); on French's 49 industries over 500 days, about
+    12% with the default 10 splits, as much as SplitShrink differs from
+    KernelShrink there.
+    """
+    import math
+
+    fit = est
+    if getattr(est, "blend_score_", None) is None:
+        fit = getattr(est, "best_estimator_", est)
+    error = getattr(fit, "split_error_", None)
+    if not error:  # None (one split) or 0.0 (splits not random)
+        return None
+    n_splits = fit.n_splits
+    return (
+        f"random splits: another --seed moves the cleaned eigenvalues by about "
+        f"{math.sqrt(2.0) * error:.1%} (Frobenius, the Monte-Carlo error of "
+        f"{n_splits} splits); --splits {4 * n_splits} halves it"
     )

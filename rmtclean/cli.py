@@ -32,6 +32,7 @@ from rmtclean._cli_messages import (
     degrees_of_freedom,
     level_note,
     plural,
+    split_note,
     variance_note,
     warn,
 )
@@ -104,6 +105,8 @@ def _build_estimator(args):
         wanted["random_state"] = args.seed
     if getattr(args, "sample_level", False):
         wanted["scale_estimate"] = "sample"
+    if getattr(args, "splits", None) is not None:
+        wanted["n_splits"] = args.splits
     for name, value in wanted.items():
         if name not in params and value not in (False, None):
             raise ValueError(
@@ -240,6 +243,8 @@ def _cmd_clean(args) -> int:
     ]
     if kind == "covariance" and (note := level_note(est)):
         lines.insert(-1, f"  {note}")
+    if note := split_note(est):
+        lines.insert(-1, f"  {note}")
     if hasattr(est, "describe_choice"):  # AutoShrink says what it chose
         lines.insert(3, f"  {est.describe_choice()}")
     if args.report:
@@ -365,6 +370,14 @@ def _add_clean_arguments(clean) -> None:
     )
     clean.add_argument(
         "--seed", type=int, default=0, help="seed of randomised cleaners (default 0)"
+    )
+    clean.add_argument(
+        "--splits",
+        type=count_at_least(2, "the spread between splits needs two"),
+        metavar="N",
+        help="--method split: random splits averaged (default 10); the "
+        "summary says how far another --seed moves the result, which falls "
+        "as 1 / sqrt(N)",
     )
     clean.add_argument(
         "--sample-level",

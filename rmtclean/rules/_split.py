@@ -72,6 +72,7 @@ criterion, as recalled) chose ``m = 0.6 T`` in every repetition and scored
 from __future__ import annotations
 
 import numbers
+from dataclasses import replace
 
 import numpy as np
 
@@ -237,12 +238,14 @@ def _split_diagonal(
     splits,
     assume_centered: bool,
     null_space: str,
-) -> tuple[np.ndarray, float | None]:
-    """``u_i' Sigma_{m,M} u_i`` for the given basis, and its null-space value."""
+) -> tuple[np.ndarray, float | None, np.ndarray]:
+    """``u_i' Sigma_{m,M} u_i`` for the given basis, its null-space value,
+    and each split's values (rows; the null-space value last when there is
+    a null space) for the Monte-Carlo error of the average."""
     n_features, n_components = eigenvectors.shape
-    values = np.zeros(n_components)
-    trace = 0.0
-    for train, evaluation in splits:
+    has_null = n_components < n_features
+    per_split = np.zeros((len(splits), n_components + has_null))
+    for k, (train, evaluation) in enumerate(splits):
         basis, b, c, tr = _split_once(
             X[train],
             X[evaluation],
@@ -251,16 +254,63 @@ def _split_diagonal(
             *_part(w, train, evaluation),
         )
         overlap = eigenvectors.T @ basis
-        values += (overlap * overlap) @ (b - c) + c
-        trace += tr
-    values /= len(splits)
-    trace /= len(splits)
-    if n_components == n_features:
-        return values, None
-    # Trace of each split estimate is tr(S2); the full-sample null space
-    # gets what the stored directions leave, spread evenly.
-    null_value = (trace - np.sum(values)) / (n_features - n_components)
-    return values, float(max(null_value, 0.0))
+        values = (overlap * overlap) @ (b - c) + c
+        per_split[k, :n_components] = values
+        if has_null:
+            # Trace of each split estimate is tr(S2); the full-sample null
+            # space gets what the stored directions leave, spread evenly.
+            per_split[k, -1] = (tr - values.sum()) / (n_features - n_components)
+    mean = per_split.mean(axis=0)
+    if not has_null:
+        return mean, None, per_split
+    return mean[:-1], float(max(mean[-1], 0.0)), per_split
+
+
+def _monte_carlo_error(
+    per_split: np.ndarray,
+    values: np.ndarray,
+    null_value: float | None,
+    n_features: int,
+    n_rows: int,
+    shuffle: bool,
+    leave_one_out: bool,
+) -> float | None:
+    """Relative Frobenius standard error of the average over random splits.
+
+    Given the data, random permutations are independent draws, so the
+    average of ``M`` splits has variance ``s^2 / M`` per coordinate (``s^2``
+    the variance between splits, ddof 1); distinct rows held out one at a
+    time are drawn without replacement from the ``T`` rows, which adds the
+    finite-population factor ``1 - M / T`` (Cochran 1977, Sampling
+    Techniques, 3rd ed., Theorem 2.2). Coordinates are the cleaned
+    eigenvalues and, ``n_features - n_components`` times over, the null
+    value; the result is divided by the Frobenius norm of the cleaned
+    matrix. 0.0 when the splits are not random (``shuffle=False``, or every
+    row held out once); None for one random split (no spread to measure).
+    """
+    n_splits = per_split.shape[0]
+    factor = 1.0
+    if leave_one_out:
+        factor = max(1.0 - n_splits / n_rows, 0.0)
+    if not shuffle or factor == 0.0:
+        return 0.0
+    if n_splits < 2:
+        return None
+    # In units of the largest value: squares of 1e200 or 1e-200 stay finite.
+    unit = float(np.max(np.abs(per_split), initial=0.0))
+    if not unit > 0:
+        return 0.0
+    var = (per_split / unit).var(axis=0, ddof=1) * (factor / n_splits)
+    values = values / unit
+    n_null = n_features - values.size
+    norm2 = float(values @ values)
+    total = float(var[: values.size].sum())
+    if n_null:
+        norm2 += n_null * ((null_value or 0.0) / unit) ** 2
+        total += n_null * float(var[-1])
+    if not norm2 > 0:
+        return 0.0 if total == 0 else None
+    return float(np.sqrt(total / norm2))
 
 
 def _pool_ties(
@@ -604,11 +654,17 @@ def _split_rule(
     splits, details = _prepare(
         X, w, m, n_splits, shuffle, rng, assume_centered, null_space
     )
-    values, null_value = _split_diagonal(
+    values, null_value, per_split = _split_diagonal(
         X, w, eigenvectors, splits, assume_centered, null_space
     )
     if sample is not None:
         values, null_value = _pool_ties(values, null_value, sample, X.shape[1])
+    n_rows = X.shape[0]
+    error = _monte_carlo_error(
+        per_split, values, null_value, X.shape[1], n_rows, details.shuffle,
+        leave_one_out=n_rows - details.train_size == 1,
+    )  # fmt: skip
+    details = replace(details, split_error=error)
     return CleanedEigenvalues(values, null_value, None, details)
 
 

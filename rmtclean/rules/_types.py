@@ -165,6 +165,12 @@ class SplitDetails:
     train_size_criterion : dict or None
         Held-out criterion per candidate train size, when
         ``train_size="auto"``.
+    split_error : float or None
+        Monte-Carlo standard error of the average over random splits,
+        relative to the cleaned matrix in Frobenius norm: how far the
+        values sit from the average over all splits, so two seeds differ
+        by about ``sqrt(2)`` times it. 0.0 for splits that are not random,
+        None for one random split.
     """
 
     train_size: int
@@ -172,6 +178,7 @@ class SplitDetails:
     shuffle: bool
     null_space: str
     train_size_criterion: dict | None = None
+    split_error: float | None = None
 
 
 RuleDetails = (
