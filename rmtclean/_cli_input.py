@@ -66,6 +66,21 @@ def _refuse_if_transposed(frame, args) -> None:
         )
 
 
+def rows_are_named(labels) -> bool:
+    """Whether row labels are names (samples), not dates nor row numbers.
+
+    Most labels are text, unique, and few read as dates: the rows are then
+    not a time series in any known order (an expression panel's samples,
+    often sorted by tissue).
+    """
+    from rmtclean.io import date_like_labels
+
+    names = [x for x in labels if isinstance(x, str)]
+    if len(names) < _DATE_HEADER_SHARE * len(labels) or not labels.is_unique:
+        return False
+    return date_like_labels(names) <= (1 - _DATE_HEADER_SHARE) * len(names)
+
+
 def _say_if_rows_look_like_variables(frame, args) -> None:
     """Warn when rows labelled by names outnumber the columns.
 
@@ -73,17 +88,14 @@ def _say_if_rows_look_like_variables(frame, args) -> None:
     column; read as they stand they give the covariance of the samples. Rows
     labelled by dates (a returns panel) or by nothing are left alone.
     """
-    from rmtclean.io import _first_names, date_like_labels
+    from rmtclean.io import _first_names
 
     n_rows, n_columns = frame.shape
     if n_columns < 3 or n_rows < _NAMED_ROWS_PER_COLUMN * n_columns:
         return
+    if not args.named_rows:
+        return
     labels = frame.index
-    names = [x for x in labels if isinstance(x, str)]
-    if len(names) < _DATE_HEADER_SHARE * n_rows or not labels.is_unique:
-        return
-    if date_like_labels(names) > (1 - _DATE_HEADER_SHARE) * len(names):
-        return
     warn(
         args,
         f"the {n_rows} rows of {args.data} are labelled by names, not dates "
@@ -114,6 +126,7 @@ def load_returns(args):
         _refuse_if_transposed(frame, args)
     extra = 1 if args.from_prices else 0
     frame = numeric_matrix(frame, min_rows=MIN_ROWS + extra, source=source)
+    args.named_rows = len(frame.index) > 0 and rows_are_named(frame.index)
     if not args.transpose:
         _say_if_rows_look_like_variables(frame, args)
     frame = _oldest_first(frame, args)

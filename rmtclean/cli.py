@@ -17,6 +17,7 @@ import sys
 from pathlib import Path
 
 from rmtclean import __version__
+from rmtclean._cli_figure import report_figure, save_figure
 from rmtclean._cli_input import (
     MIN_ROWS,
     check_missing_option,
@@ -107,6 +108,12 @@ def _build_estimator(args):
         wanted["scale_estimate"] = "sample"
     if getattr(args, "splits", None) is not None:
         wanted["n_splits"] = args.splits
+    if "cv" in params and getattr(args, "named_rows", False):
+        # Rows named, not dated (samples, often sorted by group): contiguous
+        # folds would each hold out a group. Shuffled, seeded folds instead.
+        from sklearn.model_selection import KFold
+
+        wanted["cv"] = KFold(params["cv"], shuffle=True, random_state=args.seed)
     for name, value in wanted.items():
         if name not in params and value not in (False, None):
             raise ValueError(
@@ -137,55 +144,6 @@ def _estimator_report(est, frame, args):
         standardized=standardized,
         n_observations=frame.shape[0],
     )
-
-
-def _report_figure(est, report, frame, args):
-    import numpy as np
-
-    from rmtclean.plotting import panel_grid, plot_report, plot_shrinkage
-
-    n_features = frame.shape[1]
-    fig, (left, right) = panel_grid(2)
-    what = "correlation" if report.standardized else "covariance"
-    dof = report.degrees_of_freedom
-    plot_report(
-        report,
-        ax=left,
-        title=f"sample {what} spectrum (N={n_features}, T={frame.shape[0]}, "
-        f"dof={dof:.4g})",
-    )
-    label = args.method
-    if hasattr(est, "describe_choice"):  # AutoShrink: the cleaner it chose
-        n_used = int(np.count_nonzero(est.weights_ > 0))
-        chosen = (
-            f"blend of {n_used}"
-            if est.blend_score_ is not None
-            else type(est.best_estimator_).__name__
-        )
-        label += f" (chose {chosen})"
-    if getattr(est, "scale_estimate", None) == "robust":  # said on the curve
-        level = est.eigenvalues_.sum() / est.sample_eigenvalues_.sum()
-        label += f" (robust level: {level:.2f} of the sample's)"
-    plot_shrinkage(
-        est.sample_eigenvalues_,
-        {label: est.eigenvalues_},
-        ax=right,
-        title=f"{args.method}: cleaned vs sample eigenvalues",
-    )
-    import textwrap
-
-    from rmtclean.demo import CAUTION
-
-    fig.supxlabel(textwrap.fill(CAUTION, 150), fontsize=6.5, color="0.3")
-    return fig
-
-
-def _save_figure(fig, target) -> None:
-    from rmtclean.io import atomic_path
-
-    path = Path(target)
-    with atomic_path(path) as tmp:
-        fig.savefig(tmp, format=path.suffix.lstrip(".").lower() or "png")
 
 
 def _cmd_clean(args) -> int:
@@ -222,7 +180,7 @@ def _cmd_clean(args) -> int:
         try:
             if report is None:
                 raise ValueError("there is no spectrum report to draw")
-            _save_figure(_report_figure(est, report, frame, args), args.report)
+            save_figure(report_figure(est, report, frame, args), args.report)
         except Exception as exc:  # the matrix is written; say what is missing
             warn(args, f"the figure {args.report} was not written: {cli_language(exc)}")
             args.report = None
@@ -247,6 +205,10 @@ def _cmd_clean(args) -> int:
         lines.insert(-1, f"  {note}")
     if hasattr(est, "describe_choice"):  # AutoShrink says what it chose
         lines.insert(3, f"  {est.describe_choice()}")
+        if getattr(est.cv, "shuffle", False):
+            lines.insert(
+                4, "  folds: shuffled (rows named, not dated; --seed sets them)"
+            )
     if args.report:
         lines.append(f"  figure: {args.report}")
     print("\n".join(lines) + "\n\n" + CAUTION, file=say)

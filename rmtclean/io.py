@@ -138,7 +138,9 @@ def read_table(path, *, index_col="auto"):
     index_col : "auto", int, str or None, default="auto"
         The column holding the row labels. ``"auto"`` takes the first column
         when it is not numeric and has unique, non-missing values (dates,
-        sample names); ``None`` reads no index.
+        sample names), or when its header is empty and its values are unique
+        and non-missing (the row numbers ``DataFrame.to_csv`` writes);
+        ``None`` reads no index.
 
     Returns
     -------
@@ -205,8 +207,19 @@ def read_table(path, *, index_col="auto"):
     if frame.shape[1] == 0:
         raise ValueError(f"The file {str(path)!r} has no columns.")
     if index_col == "auto":
-        if frame.shape[1] > 1 and _is_label_column(frame.iloc[:, 0]):
+        first = frame.iloc[:, 0]
+        # A first column without a header is the row index pandas' to_csv
+        # writes (0, 1, 2, ... by default): labels, even when numeric.
+        unnamed = (
+            kind != "parquet"
+            and str(frame.columns[0]) == "Unnamed: 0"
+            and first.notna().all()
+            and first.is_unique
+        )
+        if frame.shape[1] > 1 and (unnamed or _is_label_column(first)):
             frame = frame.set_index(frame.columns[0])
+            if unnamed:
+                frame.index.name = None
     elif index_col is not None:
         name = frame.columns[index_col] if isinstance(index_col, int) else index_col
         if name not in frame.columns:

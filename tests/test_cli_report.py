@@ -224,7 +224,8 @@ def test_report_figure_carries_the_caution(long_panel):
 
     from matplotlib.text import Text
 
-    from rmtclean.cli import _estimator_report, _report_figure
+    from rmtclean._cli_figure import report_figure
+    from rmtclean.cli import _estimator_report
     from rmtclean.demo import CAUTION
 
     _, frame = long_panel
@@ -232,7 +233,7 @@ def test_report_figure_carries_the_caution(long_panel):
     est = KernelShrink().fit(frame.to_numpy())
     args = SimpleNamespace(standardize=False, method="KernelShrink")
     report = _estimator_report(est, frame, args)
-    fig = _report_figure(est, report, frame, args)
+    fig = report_figure(est, report, frame, args)
     texts = [" ".join(t.get_text().split()) for t in fig.findobj(Text)]
     assert CAUTION in texts
 
@@ -243,14 +244,15 @@ def test_report_figure_names_what_auto_chose(long_panel, combine):
     # (or the blend), as the summary line does: "auto" alone says nothing.
     from types import SimpleNamespace
 
-    from rmtclean.cli import _estimator_report, _report_figure
+    from rmtclean._cli_figure import report_figure
+    from rmtclean.cli import _estimator_report
     from rmtclean.estimators import AutoShrink
 
     _, frame = long_panel
     frame = frame.iloc[-500:]
     est = AutoShrink(combine=combine).fit(frame.to_numpy())
     args = SimpleNamespace(standardize=False, method="auto")
-    fig = _report_figure(est, _estimator_report(est, frame, args), frame, args)
+    fig = report_figure(est, _estimator_report(est, frame, args), frame, args)
     labels = [line.get_label() for line in fig.axes[1].lines]
     if combine == "select":
         chosen = type(est.best_estimator_).__name__
@@ -335,3 +337,22 @@ def test_splits_is_refused_by_a_cleaner_without_splits(long_panel, capsys):
     code, out, err = _run(["clean", path, "--splits", "20"], capsys)
     assert code == 1 and out == ""
     assert "--splits: --method kernel does not take it" in err
+
+
+def test_robust_level_of_tyler_chosen_by_auto_is_said(long_panel):
+    # AutoShrink that chose TylerShrink writes its robust level: the note
+    # says so, and names the flags that keep the sample's level
+    # (--sample-level alone is not an option of --method auto).
+    from rmtclean._cli_messages import level_note
+    from rmtclean.estimators import AutoShrink, TylerShrink
+
+    _, frame = long_panel
+    X = frame.iloc[-250:].to_numpy()
+    est = AutoShrink(candidates=["tyler", "linear"], scoring=lambda e, X: 0.0)
+    est.fit(X)
+    assert isinstance(est.best_estimator_, TylerShrink)
+    note = level_note(est)
+    ratio = est.eigenvalues_.sum() / est.sample_eigenvalues_.sum()
+    assert note.startswith(f"variance level: robust (median row norm), {ratio:.2f}")
+    assert note.endswith("--method tyler --sample-level keeps the sample's level")
+    assert level_note(AutoShrink(candidates=["linear"]).fit(X)) is None

