@@ -53,9 +53,18 @@ DEFAULT_METHOD = "kernel"
 
 
 def _cmd_demo(args) -> int:
+    from rmtclean.bench.run import limit_threads
     from rmtclean.demo import CAUTION, run_demo
 
-    result = run_demo(n_assets=args.assets, n_days=args.days, random_state=args.seed)
+    # Hundreds of small eigendecompositions: threaded BLAS saves nothing on
+    # them and, with another process holding a core, its handoffs cost a
+    # lot (a 300 x 300 eigh: 0.025 s on two threads, 0.012 s on one, with
+    # one of 2 cores busy; the whole demo 38.6 s against 12.2 s then, and
+    # up to 134 s under heavier load). One thread up to 1000 assets.
+    with limit_threads(1 if args.assets <= 1000 else None):
+        result = run_demo(
+            n_assets=args.assets, n_days=args.days, random_state=args.seed
+        )
     print(
         f"Invented market: {result.n_assets} assets in 10 sectors with a market "
         f"factor, {result.n_days} daily returns (seed {args.seed}); 11 factors "
