@@ -13,14 +13,16 @@ def report_figure(est, report, frame, args):
     from rmtclean.plotting import panel_grid, plot_report, plot_shrinkage
 
     n_features = frame.shape[1]
-    fig, (left, right) = panel_grid(2)
+    # Taller than the default panels: the report's warnings go below the
+    # left one and must not squeeze it under its axis label.
+    fig, (left, right) = panel_grid(2, panel_size=(4.8, 4.6))
     what = "correlation" if report.standardized else "covariance"
     dof = report.degrees_of_freedom
     plot_report(
         report,
         ax=left,
-        title=f"sample {what} spectrum (N={n_features}, T={frame.shape[0]}, "
-        f"dof={dof:.4g})",
+        title=f"sample {what} spectrum\nN={n_features}, T={frame.shape[0]}, "
+        f"dof={dof:.6g}",
     )
     label = args.method
     if hasattr(est, "describe_choice"):  # AutoShrink: the cleaner it chose
@@ -53,4 +55,6 @@ def save_figure(fig, target) -> None:
 
     path = Path(target)
     with atomic_path(path) as tmp:
-        fig.savefig(tmp, format=path.suffix.lstrip(".").lower() or "png")
+        fig.savefig(
+            tmp, format=path.suffix.lstrip(".").lower() or "png", bbox_inches="tight"
+        )

@@ -326,6 +326,10 @@ def plot_shrinkage(
     if scale == "log":
         ax.set_xscale("log")
         ax.set_yscale("log")
+        _no_crowded_minor_labels(ax.xaxis)
+        _no_crowded_minor_labels(ax.yaxis)
+    else:  # daily-return variances (4e-4): 1e-4 units, not 0.000350 ticks
+        ax.ticklabel_format(style="sci", scilimits=(-3, 4))
     ax.set_xlabel("sample eigenvalue")
     ax.set_ylabel("cleaned eigenvalue")
     if title:
@@ -390,6 +394,7 @@ def _draw_spectrum(
         )[1:-1]
         curve = grid * _mp_density_of_bulk(bulk, n_samples, grid)
         ax.set_xscale("log")
+        _no_crowded_minor_labels(ax.xaxis)
         ylabel = "density per unit of log eigenvalue"
     else:
         unit = _unit(edge)
@@ -631,6 +636,14 @@ def plot_report(report, *, ax=None, title: str | None = None, scale: str = "auto
     if title:
         ax.set_title(title)
     return fig
+
+
+def _no_crowded_minor_labels(axis) -> None:
+    """No labels on the minor ticks of a log axis (spans under a decade
+    label them all, in 10^x notation that runs into each other)."""
+    from matplotlib.ticker import NullFormatter
+
+    axis.set_minor_formatter(NullFormatter())
 
 
 def _check_scale(scale, function: str) -> None:
