@@ -290,7 +290,8 @@ def _add_data_arguments(parser, standardize_help: str) -> None:
     parser.add_argument(
         "--assume-returns",
         action="store_true",
-        help="skip the price check (positive data moving in small steps)",
+        help="use the values as returns even when they look like prices "
+        "(all positive, moving in small steps), which is otherwise refused",
     )
     from rmtclean.estimators import CLEANERS
 
@@ -332,7 +333,12 @@ def _add_clean_arguments(clean) -> None:
         help="which matrix is written (default: correlation with --standardize, "
         "else covariance)",
     )
-    clean.add_argument("--report", metavar="FILE.png", help="where to save the figure")
+    clean.add_argument(
+        "--report",
+        metavar="FILE.png",
+        help="where to save the figure (.png, .pdf, .svg or .jpg: the suffix "
+        "picks the format)",
+    )
     _add_half_life_argument(clean)
     _add_vol_half_life_argument(
         clean,
@@ -448,7 +454,10 @@ def _add_bench_arguments(bench) -> None:
         "--out", default="bench-out", help="output directory (default bench-out)"
     )
     bench.add_argument(
-        "--n-jobs", type=int, default=1, help="parallel draws (joblib), -1 = all"
+        "--n-jobs",
+        type=int,
+        default=1,
+        help="parallel draws (joblib), -1 = all (default 1)",
     )
     bench.add_argument(
         "--seed", type=int, help=f"seed of the run (default: {default.seed})"
