@@ -107,6 +107,39 @@ def _say_if_rows_look_like_variables(frame, args) -> None:
     )
 
 
+def _say_repeated_rows(frame, args) -> list:
+    """Warn about rows equal to an earlier row; return their (j, i) pairs.
+
+    A duplicated date or sample counts twice in the covariance (the dslabs
+    tissue panel holds 4 such samples); rows of zeros on days without
+    trading weigh the variances down. Rows with every value missing are a
+    --missing matter and left out.
+    """
+    import numpy as np
+
+    empty = frame.isna().all(axis=1).to_numpy()
+    repeats = repeated_columns(frame.T, skip=empty)
+    if not repeats:
+        return []
+    labels = frame.index
+    pairs = [f"{labels[j]!r} = {labels[i]!r}" for j, i in repeats]
+    more = " ..." if len(pairs) > 3 else ""
+    zeros = all(not np.any(frame.iloc[j].to_numpy()) for j, _ in repeats)
+    why = (
+        "rows of zeros (days without trading filled with 0?) pull the variances down"
+        if zeros
+        else "each copy counts that observation twice (a duplicated date or "
+        "sample) and adds a zero eigenvalue when N > T"
+    )
+    warn(
+        args,
+        f"{len(repeats)} row(s) of {args.data} repeat an earlier row "
+        f"({', '.join(pairs[:3])}{more}): {why}; remove the copies to count "
+        "each once.",
+    )
+    return repeats
+
+
 def load_returns(args):
     """The returns table of ``args.data``: read, checked, prices handled."""
     from rmtclean.io import (
@@ -157,8 +190,18 @@ def load_returns(args):
             f"({', '.join(pairs[:3])}{more}): each copy adds a zero eigenvalue "
             "to the spectrum; remove the copies to leave them out.",
         )
+    # All constant: every row is the same one, which the cleaners refuse.
+    rows_vary = constant.size < frame.shape[1]
+    repeats = (
+        _say_repeated_rows(frame, args) if rows_vary and not args.from_prices else []
+    )
     # The rank deficiency these explain is not said again (warn's filter).
-    args.known_zeros = (int(constant.size) + len(copies), frame.shape[1])
+    args.known_zeros = (
+        int(constant.size) + len(copies),
+        frame.shape[1],
+        len(repeats),
+        frame.shape[0],
+    )
     # All constant: the cleaners refuse it with their own message.
     if constant.size and constant.size < frame.shape[1]:
         warn(

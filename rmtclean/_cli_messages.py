@@ -68,19 +68,25 @@ def warn(args, text: str) -> None:
 def _rank_words(text: str, known) -> str | None:
     """``text``, or ``None`` when its zero eigenvalues are all explained.
 
-    ``known`` is ``(columns explained, columns in all)``: constant and
-    repeated columns leave ``max(0, allowed - (N - k))`` of the ``allowed``
-    sample eigenvalues at zero.
+    ``known`` is ``(columns explained, N, rows repeated, T)``: the ``k``
+    constant and repeated columns and the ``r`` repeated rows leave the
+    rank at ``min(N - k, allowed - r + max(0, T - 1 - allowed))`` of the
+    ``allowed`` nonzero sample eigenvalues (rows bind only when ``T - 1 -
+    r`` falls below the rest).
     """
     match = re.match(r"the data are rank deficient\b.*?(\d+) of the (\d+) ", text)
-    if not match or not known or not known[0]:
+    if not match or not known or not (known[0] or known[2]):
         return text
     n_zero, allowed = int(match.group(1)), int(match.group(2))
-    expected = max(0, allowed - (known[1] - known[0]))
+    k, n_features, r, n_rows = known
+    rank = min(n_features - k, allowed - r + max(0, n_rows - 1 - allowed))
+    expected = max(0, allowed - rank)
     if n_zero == expected:
         return None
     if expected:
-        return f"{text} ({expected} of them from the constant or repeated columns)"
+        return (
+            f"{text} ({expected} of them from the constant or repeated columns or rows)"
+        )
     return text
 
 

