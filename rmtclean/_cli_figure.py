@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from rmtclean._cli_messages import chosen_fit
+
 __all__ = ["report_figure", "save_figure"]
 
 
@@ -26,12 +28,9 @@ def report_figure(est, report, frame, args):
     )
     label = args.method
     if hasattr(est, "describe_choice"):  # AutoShrink: the cleaner it chose
+        fit = chosen_fit(est)
         n_used = int(np.count_nonzero(est.weights_ > 0))
-        chosen = (
-            f"blend of {n_used}"
-            if est.blend_score_ is not None
-            else type(est.best_estimator_).__name__
-        )
+        chosen = f"blend of {n_used}" if fit is est else type(fit).__name__
         label += f" (chose {chosen})"
     if getattr(est, "scale_estimate", None) == "robust":  # said on the curve
         level = est.eigenvalues_.sum() / est.sample_eigenvalues_.sum()

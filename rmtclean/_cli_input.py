@@ -107,6 +107,12 @@ def _say_if_rows_look_like_variables(frame, args) -> None:
     )
 
 
+def _named_pairs(labels, pairs, most: int = 3) -> str:
+    """``'b' = 'a', ...``: the first ``most`` (copy, original) pairs by label."""
+    shown = [f"{labels[j]!r} = {labels[i]!r}" for j, i in pairs[:most]]
+    return ", ".join(shown) + (" ..." if len(pairs) > most else "")
+
+
 def _say_repeated_rows(frame, args) -> list:
     """Warn about rows equal to an earlier row; return their (j, i) pairs.
 
@@ -121,9 +127,6 @@ def _say_repeated_rows(frame, args) -> list:
     repeats = repeated_columns(frame.T, skip=empty)
     if not repeats:
         return []
-    labels = frame.index
-    pairs = [f"{labels[j]!r} = {labels[i]!r}" for j, i in repeats]
-    more = " ..." if len(pairs) > 3 else ""
     zeros = all(not np.any(frame.iloc[j].to_numpy()) for j, _ in repeats)
     why = (
         "rows of zeros (days without trading filled with 0?) pull the variances down"
@@ -134,7 +137,7 @@ def _say_repeated_rows(frame, args) -> list:
     warn(
         args,
         f"{len(repeats)} row(s) of {args.data} repeat an earlier row "
-        f"({', '.join(pairs[:3])}{more}): {why}; remove the copies to count "
+        f"({_named_pairs(frame.index, repeats)}): {why}; remove the copies to count "
         "each once.",
     )
     return repeats
@@ -182,13 +185,11 @@ def load_returns(args):
         )
     copies = repeated_columns(frame, skip=is_constant.to_numpy())
     if copies:
-        pairs = [f"{frame.columns[j]!r} = {frame.columns[i]!r}" for j, i in copies]
-        more = " ..." if len(pairs) > 3 else ""
         warn(
             args,
             f"{len(copies)} column(s) of {args.data} repeat an earlier column "
-            f"({', '.join(pairs[:3])}{more}): each copy adds a zero eigenvalue "
-            "to the spectrum; remove the copies to leave them out.",
+            f"({_named_pairs(frame.columns, copies)}): each copy adds a zero "
+            "eigenvalue to the spectrum; remove the copies to leave them out.",
         )
     # All constant: every row is the same one, which the cleaners refuse.
     rows_vary = constant.size < frame.shape[1]

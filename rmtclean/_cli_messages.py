@@ -16,6 +16,7 @@ __all__ = [
     "FLAGS",
     "STEPS",
     "WarningLines",
+    "chosen_fit",
     "cli_language",
     "degrees_of_freedom",
     "level_note",
@@ -192,6 +193,17 @@ def degrees_of_freedom(est) -> tuple[float, float]:
     return (divisor - 1.0 if biased else divisor), divisor
 
 
+def chosen_fit(est):
+    """The fit whose settings the written matrix follows.
+
+    AutoShrink's chosen cleaner when it selected one (``best_estimator_``),
+    else ``est`` itself: any other cleaner, or a blend of several.
+    """
+    if getattr(est, "blend_score_", None) is None:
+        return getattr(est, "best_estimator_", est)
+    return est
+
+
 def level_note(est) -> str | None:
     """What a robust variance level does to the written covariance, if used.
 
@@ -201,9 +213,7 @@ def level_note(est) -> str | None:
     that of the cleaned to the sample eigenvalues, in the space cleaned (the
     correlation under --standardize or --vol-half-life), as on the figure.
     """
-    inner = est
-    if getattr(est, "blend_score_", None) is None:  # AutoShrink's choice
-        inner = getattr(est, "best_estimator_", est)
+    inner = chosen_fit(est)
     if getattr(inner, "scale_estimate", None) != "robust":
         return None
     ratio = float(est.eigenvalues_.sum() / est.sample_eigenvalues_.sum())
@@ -282,9 +292,7 @@ def split_note(est) -> str | None:
     """
     import math
 
-    fit = est
-    if getattr(est, "blend_score_", None) is None:
-        fit = getattr(est, "best_estimator_", est)
+    fit = chosen_fit(est)
     error = getattr(fit, "split_error_", None)
     if not error:  # None (one split) or 0.0 (splits not random)
         return None

