@@ -31,6 +31,8 @@ def report_figure(est, report, frame, args):
         fit = chosen_fit(est)
         n_used = int(np.count_nonzero(est.weights_ > 0))
         chosen = f"blend of {n_used}" if fit is est else type(fit).__name__
+        if est.spherical_:  # John's test did not reject a multiple of I
+            chosen = "a multiple of I"
         label += f" (chose {chosen})"
     if getattr(est, "scale_estimate", None) == "robust":  # said on the curve
         level = est.eigenvalues_.sum() / est.sample_eigenvalues_.sum()

@@ -380,7 +380,8 @@ def test_describe_choice_names_the_winner_and_the_scores(rng):
 def test_cli_clean_with_auto_says_what_it_chose(tmp_path, capsys):
     from rmtclean.cli import main
 
-    X = np.random.default_rng(0).standard_normal((80, 6))
+    # A common factor (a market) over noise: the held-out choice is used.
+    X = _data(np.random.default_rng(0), 80, 6, spikes=(4.0,))
     path = tmp_path / "returns.csv"
     np.savetxt(path, X * 0.01, delimiter=",", header="a,b,c,d,e,f", comments="")
     assert (

@@ -5,6 +5,7 @@ from rmtclean.spectrum._cleaned import CleanedSpectrum
 from rmtclean.spectrum._edge import EdgeTest, detect_signal
 from rmtclean.spectrum._report import SpectrumReport, analyze_spectrum, spectrum_report
 from rmtclean.spectrum._sample import DENSE_LIMIT, SampleSpectrum, sample_spectrum
+from rmtclean.spectrum._sphericity import SphericityTest, sign_sphericity
 from rmtclean.spectrum._spikes import (
     SpikeInversion,
     critical_spike,
@@ -22,6 +23,7 @@ __all__ = [
     "EdgeTest",
     "SampleSpectrum",
     "SpectrumReport",
+    "SphericityTest",
     "SpikeInversion",
     "analyze_spectrum",
     "critical_spike",
@@ -31,6 +33,7 @@ __all__ = [
     "invert_spikes",
     "is_above_bulk_edge",
     "sample_spectrum",
+    "sign_sphericity",
     "spike_overlap",
     "spike_to_eigenvalue",
     "spectrum_report",
