@@ -35,6 +35,14 @@ bench's own three (about 30 minutes):
         python benchmarks/auto_shrink.py --parts gaussian,student-t \\
         --first-draw 10 --repeats 10
 
+The identity cells on forty more draws, with and without the sphericity
+gate (about 5 minutes a distribution):
+
+    PYTHONPATH=$PWD OMP_NUM_THREADS=1 OPENBLAS_NUM_THREADS=1 \\
+        python benchmarks/auto_shrink.py --parts gaussian --designs identity \\
+        --first-draw 20 --repeats 40 \\
+        --variants "auto,auto no gate,auto fro,auto fro no gate"
+
 The tables of the last run are in ``benchmarks/auto_shrink.md``.
 """
 
@@ -64,6 +72,11 @@ VARIANTS = {
     "auto blend": {"combine": "blend"},
     "auto fro blend": {"scoring": "frobenius", "combine": "blend"},
 }
+#: Variants shown on request (``--variants``): without the sphericity gate.
+MORE_VARIANTS = {
+    "auto no gate": {"sphericity_level": None},
+    "auto fro no gate": {"scoring": "frobenius", "sphericity_level": None},
+}
 
 
 def singles(seed: int) -> dict:
@@ -79,10 +92,10 @@ def singles(seed: int) -> dict:
     return out
 
 
-def frobenius_grid(distribution: str, df, draws: range, variants: dict):
+def frobenius_grid(distribution: str, df, draws: range, variants: dict, designs=None):
     config = BenchConfig.quick(distribution=distribution, df=df, repeats=draws.stop)
     rows = []
-    for design in config.designs:
+    for design in designs or config.designs:
         for ratio in config.ratios:
             losses: dict = {}
             for rep in draws:
@@ -209,12 +222,26 @@ def main(argv=None) -> int:
         help="AutoShrink's n_jobs in the cost part (folds in parallel)",
     )
     parser.add_argument(
+        "--designs",
+        default=None,
+        help="comma-separated subset of the quick grid's designs (default: all)",
+    )
+    parser.add_argument(
+        "--variants",
+        default=",".join(VARIANTS),
+        help="comma-separated AutoShrink variants of the grids, from "
+        + ", ".join(repr(k) for k in {**VARIANTS, **MORE_VARIANTS}),
+    )
+    parser.add_argument(
         "--parts",
         default="gaussian,student-t,panel,cost",
         help="comma-separated subset of gaussian,student-t,panel,cost",
     )
     args = parser.parse_args(argv)
     parts = set(args.parts.split(","))
+    known = {**VARIANTS, **MORE_VARIANTS}
+    variants = {k: known[k] for k in args.variants.split(",")}
+    designs = args.designs.split(",") if args.designs else None
     pprint(threadpool_info())
     warnings.simplefilter("ignore")
     for distribution in ("gaussian", "student-t"):
@@ -223,10 +250,10 @@ def main(argv=None) -> int:
         df = args.df if distribution == "student-t" else None
         label = distribution if df is None else f"{distribution}, df = {df:g}"
         print(f"\nFrobenius loss ratio to the best single cleaner ({label})\n")
-        print(_header(VARIANTS))
+        print(_header(variants))
         draws = range(args.first_draw, args.first_draw + args.repeats)
-        rows = frobenius_grid(distribution, df, draws, VARIANTS)
-        for k in VARIANTS:
+        rows = frobenius_grid(distribution, df, draws, variants, designs)
+        for k in variants:
             worst = max(r[k] for r in rows)
             n_ok = sum(r[k] <= TARGET_RATIO for r in rows)
             within = f"{n_ok}/{len(rows)} cells within {TARGET_RATIO}"

@@ -36,18 +36,21 @@ from rmtclean.metrics import frobenius_loss
 N_FEATURES = 100
 
 
-def cell(width: float, n_rows: int, draws: int, rng) -> str:
+def cell(width: float, n_rows: int, draws: int, rng, level=None) -> str:
     population = np.linspace(1.0 - width, 1.0 + width, N_FEATURES)
     truth = np.diag(population)
     names = ("scaled identity", "KernelShrink", "held-out choice", "AutoShrink")
     fired, losses = [], {k: [] for k in names}
     for rep in range(draws):
         X = rng.standard_normal((n_rows, N_FEATURES)) * np.sqrt(population)
-        level = np.trace(np.cov(X, rowvar=False)) / N_FEATURES
-        gated = AutoShrink(random_state=rep).fit(X)
+        mean_variance = np.trace(np.cov(X, rowvar=False)) / N_FEATURES
+        gated = AutoShrink(random_state=rep)
+        if level is not None:
+            gated.set_params(sphericity_level=level)
+        gated.fit(X)
         fired.append(gated.spherical_)
         fits = {
-            "scaled identity": level * np.eye(N_FEATURES),
+            "scaled identity": mean_variance * np.eye(N_FEATURES),
             "KernelShrink": KernelShrink().fit(X).covariance_,
             "held-out choice": AutoShrink(random_state=rep, sphericity_level=None)
             .fit(X)
@@ -73,6 +76,9 @@ def main(argv=None) -> int:
         "--widths", type=float, nargs="+", default=[0.0, 0.1, 0.2, 0.3, 0.4]
     )
     parser.add_argument("--rows", type=int, nargs="+", default=[50, 100, 200, 400])
+    parser.add_argument(
+        "--level", type=float, default=None, help="sphericity_level (its default)"
+    )
     args = parser.parse_args(argv)
     warnings.simplefilter("ignore")
     rng = np.random.default_rng(args.seed)
@@ -84,7 +90,7 @@ def main(argv=None) -> int:
     print("|" + "---|" * 9)
     for width in args.widths:
         for n_rows in args.rows:
-            print(cell(width, n_rows, args.draws, rng), flush=True)
+            print(cell(width, n_rows, args.draws, rng, args.level), flush=True)
     return 0
 
 
