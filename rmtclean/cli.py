@@ -58,9 +58,9 @@ def _cmd_demo(args) -> int:
 
     # Hundreds of small eigendecompositions: threaded BLAS saves nothing on
     # them and, with another process holding a core, its handoffs cost a
-    # lot (a 300 x 300 eigh: 0.025 s on two threads, 0.012 s on one, with
-    # one of 2 cores busy; the whole demo 38.6 s against 12.2 s then, and
-    # up to 134 s under heavier load). One thread up to 1000 assets.
+    # lot (benchmarks/bench_demo_threads.py, 2 cores: with one busy, 7.0 s
+    # on one thread against 22.0 s; idle, 6.1 s against 5.9 s). One
+    # thread up to 1000 assets.
     with limit_threads(1 if args.assets <= 1000 else None):
         result = run_demo(
             n_assets=args.assets, n_days=args.days, random_state=args.seed
