@@ -122,10 +122,9 @@ _DOC = r"""The cleaner chosen by its held-out score, or a blend of cleaners.
         intensity 1; the identity correlation under ``standardize``), not
         the held-out choice; see Notes. ``None`` always uses the held-out
         choice. The test takes the rows as given (not standardised: columns
-        of unequal variance reject it). It is skipped (as with ``None``) for
-        weighted rows
-        (``sample_weight``, ``half_life``, ``vol_half_life``) and for one
-        column.
+        of unequal variance reject it). It is skipped (as with ``None``)
+        for weighted rows (``sample_weight``, ``half_life``,
+        ``vol_half_life``) and for one column.
 %(common)s
 
     Attributes
