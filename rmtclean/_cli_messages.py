@@ -297,11 +297,8 @@ def split_note(est) -> str | None:
     if not error:  # None (one split) or 0.0 (splits not random)
         return None
     n_splits = fit.n_splits
-    flags = (
-        f"--splits {4 * n_splits}"
-        if fit is est
-        else (f"--method split --splits {4 * n_splits}")
-    )
+    method = "" if fit is est else "--method split "
+    flags = f"{method}--splits {4 * n_splits}"
     return (
         f"random splits: another --seed moves the cleaned eigenvalues by about "
         f"{math.sqrt(2.0) * error:.1%} (Frobenius, the Monte-Carlo error of "

@@ -92,7 +92,8 @@ def spatial_median(X, *, tol: float = 1e-10, max_iter: int = 500) -> np.ndarray:
     X = np.asarray(X, dtype=np.float64)
     m = np.median(X, axis=0)
     for _ in range(max_iter):
-        d = np.sqrt(np.einsum("ij,ij->i", X - m, X - m))
+        centred = X - m
+        d = np.sqrt(np.einsum("ij,ij->i", centred, centred))
         scale = float(np.median(d))
         if not scale > 0:
             return m
